@@ -1,0 +1,111 @@
+"""Validation helpers shared by the core: one place, one message shape.
+
+Every helper raises :class:`~sheetfns.errors.InputError` whose message names the argument, says what
+was expected and quotes what came, e.g. "`horizon` must be an integer >= 1; got 0".
+"""
+from __future__ import annotations
+
+from collections.abc import Sequence
+from typing import Any
+
+import numpy as np
+
+from sheetfns.errors import InputError
+
+
+def _show(value: Any) -> str:
+    text = repr(value)
+    return text if len(text) <= 60 else text[:57] + "..."
+
+
+def as_series(values: Any, name: str, *, allow_empty: bool = False) -> np.ndarray:
+    """Return ``values`` as a 1-D float array (NaN for missing). None and blanks become NaN;
+    booleans become 1.0 / 0.0. Raises if the input is not one-dimensional or not numeric."""
+    if isinstance(values, np.ndarray) and values.dtype.kind in "fiub":
+        arr = values.astype(float, copy=False)
+    else:
+        try:
+            seq = list(values.tolist() if hasattr(values, "tolist") else values)
+        except TypeError as exc:
+            raise InputError(f"`{name}` must be a 1-D sequence of numbers; got {_show(values)}") from exc
+        out = np.empty(len(seq), dtype=float)
+        for i, v in enumerate(seq):
+            if v is None or (isinstance(v, str) and v.strip() == ""):
+                out[i] = np.nan
+            elif isinstance(v, (bool, np.bool_)):
+                out[i] = 1.0 if v else 0.0
+            else:
+                try:
+                    out[i] = float(v)
+                except (TypeError, ValueError) as exc:
+                    raise InputError(
+                        f"`{name}` must hold numbers; got {_show(v)} at position {i + 1}") from exc
+        arr = out
+    if arr.ndim != 1:
+        if arr.ndim == 2 and 1 in arr.shape:
+            arr = arr.reshape(-1)
+        else:
+            raise InputError(f"`{name}` must be one-dimensional; got shape {arr.shape}")
+    if not allow_empty and arr.size == 0:
+        raise InputError(f"`{name}` must not be empty; got 0 rows")
+    return arr
+
+
+def as_events(values: Any, name: str = "actual", *, allow_empty: bool = False) -> np.ndarray:
+    """Return ``values`` as a 1-D event series: each value 0.0, 1.0 or NaN."""
+    arr = as_series(values, name, allow_empty=allow_empty)
+    bad = ~(np.isnan(arr) | (arr == 0.0) | (arr == 1.0))
+    if bad.any():
+        i = int(np.flatnonzero(bad)[0])
+        raise InputError(f"`{name}` contains values not in {{0, 1, NaN}}; got {_show(arr[i])} "
+                         f"at position {i + 1}")
+    return arr
+
+
+def as_prob(values: Any, name: str = "prob", *, allow_empty: bool = False) -> np.ndarray:
+    """Return ``values`` as a 1-D probability series: each value in [0, 1] or NaN."""
+    arr = as_series(values, name, allow_empty=allow_empty)
+    bad = ~np.isnan(arr) & ((arr < 0.0) | (arr > 1.0))
+    if bad.any():
+        i = int(np.flatnonzero(bad)[0])
+        raise InputError(f"`{name}` must hold probabilities in [0, 1]; got {_show(arr[i])} "
+                         f"at position {i + 1}")
+    return arr
+
+
+def same_length(**arrays: Sequence[Any] | np.ndarray) -> int:
+    """Check that every named array has the same length; return it."""
+    lengths = {k: len(v) for k, v in arrays.items() if v is not None}
+    if len(set(lengths.values())) > 1:
+        shown = ", ".join(f"`{k}` has {n}" for k, n in lengths.items())
+        raise InputError(f"inputs must have the same length; {shown} rows")
+    return next(iter(lengths.values()), 0)
+
+
+def as_int(value: Any, name: str, *, minimum: int | None = None, maximum: int | None = None,
+           allow_none: bool = False) -> int | None:
+    """Return ``value`` as an int within [minimum, maximum]; floats holding integers are accepted."""
+    if value is None:
+        if allow_none:
+            return None
+        raise InputError(f"`{name}` must be an integer; got None")
+    if isinstance(value, (bool, np.bool_)):
+        raise InputError(f"`{name}` must be an integer; got {_show(value)}")
+    try:
+        f = float(value)
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"`{name}` must be an integer; got {_show(value)}") from exc
+    if not np.isfinite(f) or f != int(f):
+        raise InputError(f"`{name}` must be an integer; got {_show(value)}")
+    i = int(f)
+    if minimum is not None and i < minimum:
+        raise InputError(f"`{name}` must be an integer >= {minimum}; got {_show(value)}")
+    if maximum is not None and i > maximum:
+        raise InputError(f"`{name}` must be an integer <= {maximum}; got {_show(value)}")
+    return i
+
+
+def last_observed(arr: np.ndarray) -> int:
+    """Index of the last non-NaN value (-1 when all are NaN). Rows after it are future periods."""
+    obs = np.flatnonzero(~np.isnan(arr))
+    return int(obs[-1]) if obs.size else -1
