@@ -1,0 +1,354 @@
+"""Categorical (0/1) verification: the 2x2 confusion counts, every score computed from them, and the
+cost of a forecast's mistakes.
+
+Public names are re-exported by :mod:`sheetfns.scores`; import them from there.
+"""
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping, Sequence
+from typing import Any, NamedTuple
+
+import numpy as np
+
+from sheetfns._scorebase import Quotient, paired_events
+from sheetfns.checks import _show
+from sheetfns.errors import InputError
+
+CATEGORICAL_KEYS: tuple[str, ...] = (
+    "n", "events", "hits", "false_alarms", "misses", "correct_negatives",
+    "accuracy", "error_rate", "sensitivity", "specificity", "precision", "false_alarm_ratio",
+    "false_alarm_rate", "critical_success_index", "frequency_bias", "f1", "balanced_accuracy",
+    "heidke_skill", "peirce_skill", "gilbert_skill", "odds_ratio", "odds_ratio_skill", "matthews",
+)
+
+
+class Confusion(NamedTuple):
+    """The 2x2 contingency table of a 0/1 forecast against what happened.
+
+    ``hits`` (a, true positives): forecast 1, event happened; ``false_alarms`` (b, false positives):
+    forecast 1, no event; ``misses`` (c, false negatives): forecast 0, event happened;
+    ``correct_negatives`` (d, true negatives): forecast 0, no event.
+    """
+
+    hits: int
+    false_alarms: int
+    misses: int
+    correct_negatives: int
+
+    @property
+    def n(self) -> int:
+        """Number of scored rows, a + b + c + d."""
+        return self.hits + self.false_alarms + self.misses + self.correct_negatives
+
+
+def confusion(actual: Any, forecast: Any) -> Confusion:
+    """Count hits, false alarms, misses and correct negatives.
+
+    Parameters
+    ----------
+    actual : sequence of {0, 1, NaN}, length n
+        What happened. NaN (a blank) marks a row that is not scored.
+    forecast : sequence of {0, 1, NaN}, length n
+        The 0/1 forecast for the same rows. Rows where either series is NaN are skipped.
+
+    Returns
+    -------
+    Confusion
+        ``(hits, false_alarms, misses, correct_negatives)`` as ints. All zero when no row is scored.
+
+    Raises
+    ------
+    InputError
+        If a series is empty, not one-dimensional, holds a value outside {0, 1, NaN}, or the two
+        lengths differ.
+
+    Examples
+    --------
+    >>> confusion([1, 0, 1, 0, float("nan")], [1, 1, 0, 0, 1])
+    Confusion(hits=1, false_alarms=1, misses=1, correct_negatives=1)
+    """
+    a, f = paired_events(actual, forecast)
+    a1, f1 = a == 1.0, f == 1.0
+    hits = int(np.count_nonzero(a1 & f1))
+    events = int(np.count_nonzero(a1))
+    fc = int(np.count_nonzero(f1))
+    return Confusion(hits, fc - hits, events - hits, int(a.size) - events - fc + hits)
+
+
+def _count(value: Any, name: str) -> float:
+    if isinstance(value, (bool, np.bool_)):
+        raise InputError(f"`{name}` must be a count (a number >= 0); got {_show(value)}")
+    try:
+        x = float(value)
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"`{name}` must be a count (a number >= 0); got {_show(value)}") from exc
+    if not math.isfinite(x) or x < 0:
+        raise InputError(f"`{name}` must be a count (a number >= 0); got {_show(value)}")
+    return x
+
+
+def from_counts(hits: float, false_alarms: float, misses: float, correct_negatives: float
+                ) -> dict[str, float]:
+    r"""Every categorical score of a 2x2 table, keyed as in ``CATEGORICAL_KEYS``.
+
+    Write a = hits, b = false alarms, c = misses, d = correct negatives, n = a + b + c + d.
+    A score whose denominator is zero is NaN, and one :class:`UndefinedScoreWarning` names them all.
+
+    Parameters
+    ----------
+    hits, false_alarms, misses, correct_negatives : float
+        The four counts (non-negative; weighted counts need not be integers).
+
+    Returns
+    -------
+    dict[str, float]
+        One float per key, in the order below.
+
+    Raises
+    ------
+    InputError
+        If a count is negative, infinite, NaN or not a number.
+
+    Notes
+    -----
+    *Orientation*: "perfect" is the value of a forecast that is always right; "no skill" the value
+    expected of a forecast issued at random, independently of what happens (where it is fixed).
+
+    ``n``, ``events`` (a + c), ``hits``, ``false_alarms``, ``misses``, ``correct_negatives``
+        The counts themselves. hits = true positives (TP), false alarms = false positives (FP),
+        misses = false negatives (FN), correct negatives = true negatives (TN).
+    ``accuracy`` = (a + d) / n
+        Proportion correct, PC. Range [0, 1], perfect 1; no-skill value depends on the base rate.
+    ``error_rate`` = (b + c) / n
+        Misclassification rate, 1 - PC. Range [0, 1], perfect 0.
+    ``sensitivity`` = a / (a + c)
+        Probability of detection (POD), hit rate, recall, true positive rate. Range [0, 1],
+        perfect 1.
+    ``specificity`` = d / (b + d)
+        True negative rate, 1 - POFD. Range [0, 1], perfect 1.
+    ``precision`` = a / (a + b)
+        Positive predictive value, success ratio, 1 - FAR. Range [0, 1], perfect 1; no skill: the
+        base rate (a + c) / n.
+    ``false_alarm_ratio`` = b / (a + b)
+        FAR: the share of forecast events that did not happen. Range [0, 1], perfect 0.
+    ``false_alarm_rate`` = b / (b + d)
+        Probability of false detection (POFD), false positive rate, 1 - specificity. Range [0, 1],
+        perfect 0. Not the same thing as the false alarm *ratio*.
+    ``critical_success_index`` = a / (a + b + c)
+        CSI, threat score (TS), Jaccard index. Range [0, 1], perfect 1, 0 when there is no hit.
+    ``frequency_bias`` = (a + b) / (a + c)
+        Bias score: events forecast over events observed. Range [0, inf), unbiased (and perfect) 1;
+        above 1 over-forecasting, below 1 under-forecasting.
+    ``f1`` = 2a / (2a + b + c)
+        F1 score, harmonic mean of precision and sensitivity, Dice coefficient. Range [0, 1],
+        perfect 1.
+    ``balanced_accuracy`` = (sensitivity + specificity) / 2
+        Range [0, 1], perfect 1, no skill 0.5. NaN when either part is undefined.
+    ``heidke_skill`` = 2(ad - bc) / [(a + c)(c + d) + (a + b)(b + d)]
+        Heidke skill score (HSS), Cohen's kappa for 2x2: proportion correct relative to random
+        forecasts with the same marginal totals. Range [-1, 1], perfect 1, no skill 0.
+    ``peirce_skill`` = (ad - bc) / [(a + c)(b + d)] = POD - POFD
+        Peirce skill score (PSS), Hanssen-Kuipers discriminant, true skill statistic (TSS),
+        Youden's J. Range [-1, 1], perfect 1, no skill 0.
+    ``gilbert_skill`` = (a - a_r) / (a + b + c - a_r), with a_r = (a + b)(a + c) / n
+        Gilbert skill score (GSS), equitable threat score (ETS): the CSI corrected for the hits
+        expected by chance. Range [-1/3, 1], perfect 1, no skill 0.
+    ``odds_ratio`` = ad / (bc)
+        Odds ratio (OR, theta). Range [0, inf), no skill 1; infinite for a perfect forecast, so
+        NaN (undefined) whenever b = 0 or c = 0.
+    ``odds_ratio_skill`` = (ad - bc) / (ad + bc) = (OR - 1) / (OR + 1)
+        Odds ratio skill score (ORSS), Yule's Q. Range [-1, 1], perfect 1, no skill 0.
+    ``matthews`` = (ad - bc) / sqrt[(a + b)(a + c)(b + d)(c + d)]
+        Matthews correlation coefficient (MCC), phi coefficient. Range [-1, 1], perfect 1,
+        no skill 0. NaN when a row or column total is 0 (scikit-learn returns 0 there).
+
+    References
+    ----------
+    .. [1] Wilks, D. S. (2011). *Statistical Methods in the Atmospheric Sciences* (3rd ed.),
+       section 8.2. Academic Press.
+    .. [2] Jolliffe, I. T., & Stephenson, D. B. (Eds.) (2012). *Forecast Verification: A
+       Practitioner's Guide in Atmospheric Science* (2nd ed.), chapter 3. Wiley.
+    .. [3] Stephenson, D. B. (2000). Use of the "odds ratio" for diagnosing forecast skill.
+       *Weather and Forecasting*, 15, 221-232.
+    .. [4] Murphy, A. H. (1996). The Finley affair: a signal event in the history of forecast
+       verification. *Weather and Forecasting*, 11, 3-20.
+    .. [5] Matthews, B. W. (1975). Comparison of the predicted and observed secondary structure of
+       T4 phage lysozyme. *Biochimica et Biophysica Acta*, 405, 442-451.
+
+    Examples
+    --------
+    Finley's 1884 tornado forecasts (Murphy 1996):
+
+    >>> s = from_counts(28, 72, 23, 2680)
+    >>> round(s["accuracy"], 3), round(s["peirce_skill"], 3), round(s["gilbert_skill"], 3)
+    (0.966, 0.523, 0.216)
+    """
+    a = _count(hits, "hits")
+    b = _count(false_alarms, "false_alarms")
+    c = _count(misses, "misses")
+    d = _count(correct_negatives, "correct_negatives")
+    q = Quotient()
+    n = a + b + c + d
+    cross = a * d - b * c
+    sens = q("sensitivity", a, a + c)
+    spec = q("specificity", d, b + d)
+    a_random = q("gilbert_skill", (a + b) * (a + c), n)
+    out = {
+        "n": n, "events": a + c, "hits": a, "false_alarms": b, "misses": c,
+        "correct_negatives": d,
+        "accuracy": q("accuracy", a + d, n),
+        "error_rate": q("error_rate", b + c, n),
+        "sensitivity": sens,
+        "specificity": spec,
+        "precision": q("precision", a, a + b),
+        "false_alarm_ratio": q("false_alarm_ratio", b, a + b),
+        "false_alarm_rate": q("false_alarm_rate", b, b + d),
+        "critical_success_index": q("critical_success_index", a, a + b + c),
+        "frequency_bias": q("frequency_bias", a + b, a + c),
+        "f1": q("f1", 2 * a, 2 * a + b + c),
+        "balanced_accuracy": (sens + spec) / 2 if not (math.isnan(sens) or math.isnan(spec))
+        else q.mark("balanced_accuracy"),
+        "heidke_skill": q("heidke_skill", 2 * cross, (a + c) * (c + d) + (a + b) * (b + d)),
+        "peirce_skill": q("peirce_skill", cross, (a + c) * (b + d)),
+        "gilbert_skill": q("gilbert_skill", a - a_random, a + b + c - a_random),
+        "odds_ratio": q("odds_ratio", a * d, b * c),
+        "odds_ratio_skill": q("odds_ratio_skill", cross, a * d + b * c),
+        "matthews": q("matthews", cross, math.sqrt((a + b) * (a + c) * (b + d) * (c + d))),
+    }
+    q.warn(order=CATEGORICAL_KEYS)
+    return out
+
+
+def categorical(actual: Any, forecast: Any) -> dict[str, float]:
+    """Every categorical score of a 0/1 forecast: ``from_counts(*confusion(actual, forecast))``.
+
+    Parameters
+    ----------
+    actual, forecast : sequence of {0, 1, NaN}, length n
+        What happened and what was forecast; rows where either is NaN are skipped.
+
+    Returns
+    -------
+    dict[str, float]
+        The keys of ``CATEGORICAL_KEYS``; see :func:`from_counts` for formulas, ranges and
+        references.
+
+    Raises
+    ------
+    InputError
+        As :func:`confusion`.
+    """
+    return from_counts(*confusion(actual, forecast))
+
+
+def _as_counts(table: Any) -> tuple[float, float, float, float]:
+    if isinstance(table, Mapping):
+        missing = [k for k in ("hits", "false_alarms", "misses", "correct_negatives") if k not in table]
+        if missing:
+            raise InputError(f"`confusion` must hold hits, false_alarms, misses and correct_negatives; "
+                             f"missing {', '.join(missing)}")
+        vals = [table["hits"], table["false_alarms"], table["misses"], table["correct_negatives"]]
+    elif isinstance(table, Sequence) and not isinstance(table, str) and len(table) == 4:
+        vals = list(table)
+    else:
+        raise InputError("`confusion` must be a Confusion, a mapping of the four counts or "
+                         f"(hits, false_alarms, misses, correct_negatives); got {_show(table)}")
+    names = ("hits", "false_alarms", "misses", "correct_negatives")
+    a, b, c, d = (_count(v, k) for v, k in zip(vals, names, strict=True))
+    return a, b, c, d
+
+
+def _cost(value: Any, name: str) -> float:
+    try:
+        x = float(value)
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"`{name}` must be a cost (a number >= 0); got {_show(value)}") from exc
+    if isinstance(value, (bool, np.bool_)) or not math.isfinite(x) or x < 0:
+        raise InputError(f"`{name}` must be a cost (a number >= 0); got {_show(value)}")
+    return x
+
+
+def cost_cutoff(cost_false_alarm: float, cost_miss: float) -> float:
+    r"""The probability above which forecasting the event costs less on average.
+
+    .. math:: p^* = \frac{C_{FA}}{C_{FA} + C_{miss}}
+
+    Acting on a probability p costs :math:`(1 - p) C_{FA}` in expectation, not acting costs
+    :math:`p\,C_{miss}`; the two are equal at :math:`p^*` (the cost/loss ratio of the static
+    cost-loss model, where the protective action costs :math:`C_{FA}` and the unprotected loss is
+    :math:`C_{FA} + C_{miss}`). Equal costs give 0.5.
+
+    Parameters
+    ----------
+    cost_false_alarm : float
+        Cost of one false alarm (acting when nothing happens), >= 0.
+    cost_miss : float
+        Cost of one miss (not acting when the event happens), >= 0.
+
+    Returns
+    -------
+    float
+        The cutoff in [0, 1]: forecast 1 when the probability is at or above it.
+
+    Raises
+    ------
+    InputError
+        If a cost is negative, not finite or not a number, or both costs are zero.
+
+    References
+    ----------
+    .. [1] Murphy, A. H. (1977). The value of climatological, categorical and probabilistic
+       forecasts in the cost-loss ratio situation. *Monthly Weather Review*, 105, 803-816.
+    .. [2] Richardson, D. S. (2000). Skill and relative economic value of the ECMWF ensemble
+       prediction system. *Quarterly Journal of the Royal Meteorological Society*, 126, 649-667.
+
+    Examples
+    --------
+    >>> cost_cutoff(1, 4)
+    0.2
+    """
+    cfa = _cost(cost_false_alarm, "cost_false_alarm")
+    cmiss = _cost(cost_miss, "cost_miss")
+    if cfa + cmiss == 0:
+        raise InputError("`cost_false_alarm` and `cost_miss` must not both be zero; got 0 and 0")
+    return cfa / (cfa + cmiss)
+
+
+def expected_cost(confusion: Any, cost_false_alarm: float, cost_miss: float) -> float:
+    r"""Mean cost per scored period of a 0/1 forecast's mistakes.
+
+    .. math:: \bar C = \frac{b\,C_{FA} + c\,C_{miss}}{n}
+
+    Correct forecasts cost nothing. Range [0, max(C_FA, C_miss)], perfect 0.
+
+    Parameters
+    ----------
+    confusion : Confusion, mapping or 4-sequence
+        The counts ``(hits, false_alarms, misses, correct_negatives)``; a mapping (for example the
+        output of :func:`from_counts`) is read by those keys.
+    cost_false_alarm, cost_miss : float
+        Cost of one false alarm and of one miss, each >= 0.
+
+    Returns
+    -------
+    float
+        The mean cost; NaN with an :class:`UndefinedScoreWarning` when n = 0.
+
+    Raises
+    ------
+    InputError
+        If the counts or costs are not non-negative numbers, or ``confusion`` has the wrong shape.
+
+    Examples
+    --------
+    >>> expected_cost(Confusion(5, 2, 1, 12), cost_false_alarm=1, cost_miss=4)
+    0.3
+    """
+    a, b, c, d = _as_counts(confusion)
+    cfa = _cost(cost_false_alarm, "cost_false_alarm")
+    cmiss = _cost(cost_miss, "cost_miss")
+    q = Quotient()
+    out = q("expected_cost", b * cfa + c * cmiss, a + b + c + d)
+    q.warn("no scored rows")
+    return out
