@@ -1,0 +1,325 @@
+"""Which files are workbooks, and when a saved workbook is ready to be refreshed.
+
+Two parts, both free of threads' knowledge of file-system events:
+
+* **Name rules** (``is_workbook_name``, ``owner_file``, ``workbook_of_owner_file``): only ``*.xlsx`` and
+  ``*.xlsm`` are workbooks; temporary and owner files are not: ``~$*`` (the owner file one family of
+  spreadsheet programs keeps beside an open workbook), ``.~lock.*#`` (LibreOffice's), ``*.tmp`` and
+  tocsin's own temporaries (``.tocsin-*.tmp``, written by the package writer in the workbook's folder).
+* **The debouncer** (``Debouncer``): one thread and one ``Condition`` for all paths, with a deadline per
+  path. Every new event for a path restarts that path's wait. When a path has been quiet for ``quiet``
+  seconds, the debouncer checks it through a ``FileProbe``: no owner file (else it waits, polling, and
+  says so once), size, mtime and inode the same at two looks ``settle`` seconds apart, and the file opens
+  as a complete zip package. Only then does it hand the path on, once.
+
+A ``FileProbe`` is the only part that touches the disk, so the debouncer can be tested with synthetic
+events and a fake probe.
+"""
+from __future__ import annotations
+
+import logging
+import os
+import threading
+import time
+import zipfile
+from collections.abc import Callable
+from dataclasses import dataclass
+from pathlib import Path
+
+__all__ = [
+    "TOCSIN_TEMP_PREFIX",
+    "TOCSIN_TEMP_SUFFIX",
+    "WORKBOOK_SUFFIXES",
+    "Debouncer",
+    "FileProbe",
+    "is_workbook_name",
+    "owner_file",
+    "workbook_of_owner_file",
+]
+
+_logger = logging.getLogger(__name__)
+
+WORKBOOK_SUFFIXES = (".xlsx", ".xlsm")
+TOCSIN_TEMP_PREFIX = ".tocsin-"
+TOCSIN_TEMP_SUFFIX = ".tmp"
+_EXCEL_OWNER_PREFIX = "~$"
+_LIBRE_LOCK_PREFIX = ".~lock."
+_LIBRE_LOCK_SUFFIX = "#"
+
+
+def is_workbook_name(name: str) -> bool:
+    """True when a file name is a workbook tocsin may refresh (not a temporary or owner file).
+
+    Parameters
+    ----------
+    name : str
+        The file name (the last path component).
+
+    Examples
+    --------
+    >>> [is_workbook_name(n) for n in ("ferry.xlsx", "Pumps.XLSM", "~$ferry.xlsx", ".tocsin-ab12.tmp")]
+    [True, True, False, False]
+    """
+    lower = name.lower()
+    if not lower.endswith(WORKBOOK_SUFFIXES):
+        return False
+    return not (
+        name.startswith(_EXCEL_OWNER_PREFIX)
+        or name.startswith(_LIBRE_LOCK_PREFIX)
+        or name.startswith(TOCSIN_TEMP_PREFIX)
+    )
+
+
+def owner_file_candidates(path: Path) -> tuple[Path, ...]:
+    """The owner files that, when present, mean ``path`` is open in a spreadsheet program.
+
+    ``~$name`` and ``.~lock.name#`` (common practice of the two families of programs). For long names
+    one family replaces the first two characters of the name by ``~$`` instead of prefixing it
+    (recalled from memory), so ``~$`` + ``name[2:]`` is checked as well.
+    """
+    name = path.name
+    candidates = [path.with_name(_EXCEL_OWNER_PREFIX + name)]
+    if len(name) > 2:
+        candidates.append(path.with_name(_EXCEL_OWNER_PREFIX + name[2:]))
+    candidates.append(path.with_name(_LIBRE_LOCK_PREFIX + name + _LIBRE_LOCK_SUFFIX))
+    return tuple(candidates)
+
+
+def owner_file(path: Path) -> Path | None:
+    """The owner file of ``path`` that exists now, or None when the workbook is not open anywhere."""
+    for candidate in owner_file_candidates(path):
+        if candidate.exists():
+            return candidate
+    return None
+
+
+def workbook_of_owner_file(path: Path) -> Path | None:
+    """The workbook an owner file belongs to (``~$ferry.xlsx`` -> ``ferry.xlsx``), or None.
+
+    Only the untruncated forms map back; a waiting workbook notices a truncated owner file's removal by
+    polling (see ``Debouncer``).
+    """
+    name = path.name
+    if name.startswith(_LIBRE_LOCK_PREFIX) and name.endswith(_LIBRE_LOCK_SUFFIX):
+        inner = name[len(_LIBRE_LOCK_PREFIX):-len(_LIBRE_LOCK_SUFFIX)]
+    elif name.startswith(_EXCEL_OWNER_PREFIX):
+        inner = name[len(_EXCEL_OWNER_PREFIX):]
+    else:
+        return None
+    return path.with_name(inner) if is_workbook_name(inner) else None
+
+
+Stat = tuple[int, int, int]
+"""(size, mtime in ns, inode): what must stay the same for a file to count as settled."""
+
+
+class FileProbe:
+    """The debouncer's eyes on the disk: owner file, size/mtime/inode, and zip completeness."""
+
+    def owner(self, path: Path) -> Path | None:
+        """The owner file present beside ``path``, or None."""
+        return owner_file(path)
+
+    def stat(self, path: Path) -> Stat | None:
+        """(size, mtime_ns, inode) of ``path``, or None when it does not exist (or cannot be read)."""
+        try:
+            st = os.stat(path)
+        except OSError:
+            return None
+        return (st.st_size, st.st_mtime_ns, st.st_ino)
+
+    def complete(self, path: Path) -> bool:
+        """True when ``path`` opens as a complete zip package holding ``[Content_Types].xml``.
+
+        Opening reads the end-of-central-directory record, which a truncated or half-written file lacks.
+        """
+        try:
+            with zipfile.ZipFile(path) as package:
+                package.getinfo("[Content_Types].xml")
+        except (zipfile.BadZipFile, KeyError, OSError, EOFError, ValueError):
+            return False
+        return True
+
+
+@dataclass
+class _Pending:
+    due: float
+    version: int = 0
+    stat: Stat | None = None
+    owner: Path | None = None
+    incomplete: int = 0
+
+
+def _noop(*_args: object) -> None:
+    return None
+
+
+class Debouncer:
+    """Coalesce events per path and hand each path on once it is quiet, settled, closed and complete.
+
+    Parameters
+    ----------
+    on_ready : callable(Path)
+        Called (on the debouncer's thread) once per settled path; must return quickly (queue the work).
+    quiet : float
+        Seconds without an event before a path is checked (``--quiet``; default 1).
+    probe : FileProbe, optional
+        What looks at the disk; tests pass a fake.
+    on_waiting : callable(Path, Path), optional
+        Called once when a path is held back because its owner file (second argument) exists.
+    on_resumed : callable(Path), optional
+        Called when the owner file of a waiting path has gone.
+    on_rejected : callable(Path, str), optional
+        Called when a settled path still does not open as a complete package after ``incomplete_tries``
+        looks; the path is dropped until its next event.
+    settle : float
+        Seconds between the two looks at size/mtime/inode (at most ``quiet``).
+    owner_poll : float
+        Seconds between looks at an owner file while waiting.
+    incomplete_tries : int
+        How many settled looks may find an incomplete package before the path is rejected.
+    """
+
+    def __init__(
+        self,
+        on_ready: Callable[[Path], None],
+        *,
+        quiet: float = 1.0,
+        probe: FileProbe | None = None,
+        on_waiting: Callable[[Path, Path], None] | None = None,
+        on_resumed: Callable[[Path], None] | None = None,
+        on_rejected: Callable[[Path, str], None] | None = None,
+        settle: float = 0.2,
+        owner_poll: float = 0.5,
+        incomplete_tries: int = 2,
+    ) -> None:
+        if quiet < 0:
+            raise ValueError(f"`quiet` must be a number of seconds >= 0; got {quiet!r}")
+        self._on_ready = on_ready
+        self._quiet = float(quiet)
+        self._probe = probe if probe is not None else FileProbe()
+        self._on_waiting = on_waiting or _noop
+        self._on_resumed = on_resumed or _noop
+        self._on_rejected = on_rejected or _noop
+        self._settle = max(min(float(settle), self._quiet), 0.01)
+        self._owner_poll = float(owner_poll)
+        self._incomplete_tries = max(int(incomplete_tries), 1)
+        self._cond = threading.Condition()
+        self._pending: dict[Path, _Pending] = {}
+        self._stopping = False
+        self._thread: threading.Thread | None = None
+
+    # -- intake (any thread) -------------------------------------------------------------------------
+    def submit(self, path: Path, *, delay: float | None = None) -> None:
+        """Note an event for ``path``: (re)start its wait of ``delay`` seconds (default ``quiet``)."""
+        wait = self._quiet if delay is None else max(float(delay), 0.0)
+        with self._cond:
+            if self._stopping:
+                return
+            due = time.monotonic() + wait
+            state = self._pending.get(path)
+            if state is None:
+                self._pending[path] = _Pending(due=due)
+            else:
+                state.due = due
+                state.version += 1
+                state.stat = None
+                state.incomplete = 0
+            self._cond.notify()
+
+    def pending(self) -> list[Path]:
+        """The paths waiting now (to quiet down, to settle, or for their owner file to go)."""
+        with self._cond:
+            return list(self._pending)
+
+    # -- life cycle ----------------------------------------------------------------------------------
+    def start(self) -> None:
+        """Start the debouncer's thread."""
+        self._thread = threading.Thread(target=self._run, name="tocsin-debouncer", daemon=True)
+        self._thread.start()
+
+    def stop(self, timeout: float = 2.0) -> list[Path]:
+        """Stop the thread and return the paths that were still pending (they are dropped)."""
+        with self._cond:
+            self._stopping = True
+            dropped = list(self._pending)
+            self._pending.clear()
+            self._cond.notify_all()
+        if self._thread is not None:
+            self._thread.join(timeout)
+        return dropped
+
+    # -- the thread ----------------------------------------------------------------------------------
+    def _run(self) -> None:
+        while True:
+            with self._cond:
+                while True:
+                    if self._stopping:
+                        return
+                    now = time.monotonic()
+                    due = [p for p, s in self._pending.items() if s.due <= now]
+                    if due:
+                        break
+                    nearest = min((s.due for s in self._pending.values()), default=None)
+                    self._cond.wait(None if nearest is None else nearest - now)
+            for path in due:
+                try:
+                    self._check(path)
+                except Exception:  # never let one path stop the debouncer
+                    _logger.exception("debouncer failed on %s", path)
+                    with self._cond:
+                        self._pending.pop(path, None)
+
+    def _check(self, path: Path) -> None:
+        with self._cond:
+            state = self._pending.get(path)
+            if state is None or state.due > time.monotonic() or self._stopping:
+                return
+            version = state.version
+
+        def update(**changes: object) -> bool:
+            """Apply changes unless a newer event arrived while we looked (then its wait rules)."""
+            with self._cond:
+                if self._pending.get(path) is not state or state.version != version:
+                    return False
+                for key, value in changes.items():
+                    setattr(state, key, value)
+                return True
+
+        now = time.monotonic
+        owner = self._probe.owner(path)
+        if owner is not None:
+            first = state.owner is None
+            if update(owner=owner, due=now() + self._owner_poll) and first:
+                self._on_waiting(path, owner)
+            return
+        if state.owner is not None:
+            if update(owner=None, stat=None, due=now() + self._quiet):
+                self._on_resumed(path)
+            return
+        stat = self._probe.stat(path)
+        if stat is None:
+            with self._cond:
+                if self._pending.get(path) is state and state.version == version:
+                    del self._pending[path]
+            return
+        if stat != state.stat:
+            update(stat=stat, due=now() + self._settle)
+            return
+        if not self._probe.complete(path):
+            tries = state.incomplete + 1
+            if tries < self._incomplete_tries:
+                update(incomplete=tries, stat=None, due=now() + max(self._quiet, self._settle))
+                return
+            with self._cond:
+                if self._pending.get(path) is not state or state.version != version:
+                    return
+                del self._pending[path]
+            self._on_rejected(path, "does not open as a complete workbook package (damaged, or not a "
+                                    "zip file); waiting for its next save")
+            return
+        with self._cond:
+            if self._pending.get(path) is not state or state.version != version or self._stopping:
+                return
+            del self._pending[path]
+        self._on_ready(path)

@@ -1,0 +1,400 @@
+"""The long-running watcher (``tocsin watch``): keep forecast sheets current whenever a workbook is saved.
+
+Three roles, three threads of control:
+
+* the **handler** (``_Forwarder``), called on watchdog's observer thread, only forwards the paths of
+  created, modified, moved (both ends), closed-after-write and deleted files -- spreadsheet programs save
+  by writing a temporary file and renaming it over the workbook, so all of these count alike;
+* the **debouncer** (``watcher.debounce.Debouncer``) keeps one deadline per workbook, restarts it on every
+  event, and hands a workbook on once it has been quiet for ``--quiet`` seconds, its size and mtime are
+  stable, no owner file says a person has it open, and it opens as a complete zip package;
+* the **refresh worker** (``watcher.refresh_worker.RefreshWorker``) refreshes one workbook at a time.
+
+No loops: tocsin's own write changes the file, so it comes back through the debouncer, and the refresh
+answers "unchanged" (its recorded fingerprint matches) without writing. A workbook that changed while
+tocsin computed comes back as "conflict" and is started again. One bad workbook never stops the watcher.
+
+At start every workbook already there goes through the same path with no quiet wait (the refresh skips
+those whose inputs did not change); ``--no-initial`` skips this. SIGTERM and Ctrl-C stop it: the write in
+flight is finished (or abandoned cleanly after a grace period) and the process exits 0.
+"""
+from __future__ import annotations
+
+import argparse
+import os
+import signal
+import sys
+import threading
+from collections.abc import Callable, Iterator, Sequence
+from pathlib import Path
+from typing import Any
+
+from watcher.debounce import Debouncer, FileProbe, is_workbook_name, workbook_of_owner_file
+from watcher.refresh_worker import Outcome, RefreshWorker
+from watcher.watchlog import WatchLog
+
+__all__ = ["Watcher", "add_watch_arguments", "main", "main_watch", "run_watch"]
+
+FALLBACK_POLL = 2.0
+"""Seconds between scans when the native observer cannot start and polling takes over."""
+
+_FORWARDED = frozenset({"created", "modified", "moved", "deleted", "closed"})
+
+
+class _Forwarder:
+    """The watchdog handler: forwards file paths from relevant events, and nothing else."""
+
+    def __init__(self, sink: Callable[[str], None]) -> None:
+        self._sink = sink
+
+    def dispatch(self, event: Any) -> None:
+        if event.is_directory or event.event_type not in _FORWARDED:
+            return
+        self._sink(os.fsdecode(event.src_path))
+        if event.event_type == "moved" and event.dest_path:
+            self._sink(os.fsdecode(event.dest_path))
+
+
+def _event_filter() -> list[type]:
+    from watchdog.events import (
+        FileClosedEvent,
+        FileCreatedEvent,
+        FileDeletedEvent,
+        FileModifiedEvent,
+        FileMovedEvent,
+    )
+    return [FileCreatedEvent, FileModifiedEvent, FileMovedEvent, FileDeletedEvent, FileClosedEvent]
+
+
+def _load_refresh() -> Callable[..., Any]:
+    from watcher.refresh import refresh_workbook  # lazy: pulls in the computation stack
+    return refresh_workbook
+
+
+class Watcher:
+    """Watch folders (recursively) and single workbooks; refresh each workbook once it settles.
+
+    Parameters
+    ----------
+    paths : sequence of path-like
+        Folders (watched recursively) and/or ``.xlsx``/``.xlsm`` workbooks.
+    refresh : callable, optional
+        ``refresh(path, *, progress=None) -> RefreshReport``; default ``watcher.refresh.refresh_workbook``.
+    quiet : float
+        Seconds a workbook must be free of events before it is refreshed.
+    poll : float, optional
+        Use watchdog's polling observer with this interval (seconds) instead of the native one.
+    initial : bool
+        Refresh (if their inputs changed) the workbooks already there at start.
+    log : WatchLog, optional
+        Where lines go (default: stderr only).
+    workers : int
+        Refresh threads (one workbook at a time by default).
+    probe : FileProbe, optional
+        The debouncer's file checks (tests may pass a fake).
+    on_outcome : callable(Outcome), optional
+        Called after each refresh attempt is logged (tests and the benchmark use it).
+    stop_grace : float
+        Seconds the refresh in flight may take to finish when stopping, before it is abandoned.
+    """
+
+    def __init__(
+        self,
+        paths: Sequence[str | os.PathLike[str]],
+        *,
+        refresh: Callable[..., Any] | None = None,
+        quiet: float = 1.0,
+        poll: float | None = None,
+        initial: bool = True,
+        log: WatchLog | None = None,
+        workers: int = 1,
+        probe: FileProbe | None = None,
+        on_outcome: Callable[[Outcome], None] | None = None,
+        stop_grace: float = 2.0,
+    ) -> None:
+        from sheetfns.errors import InputError
+
+        if not paths:
+            raise InputError("`PATH` must name at least one folder or workbook to watch; got none")
+        if poll is not None and not poll > 0:
+            raise InputError(f"`--poll` must be a number of seconds > 0; got {poll!r}")
+        if not quiet >= 0:
+            raise InputError(f"`--quiet` must be a number of seconds >= 0; got {quiet!r}")
+        self.folders: list[Path] = []
+        self.workbooks: list[Path] = []
+        for raw in paths:
+            path = Path(os.path.realpath(os.fspath(raw)))
+            if path.is_dir():
+                self.folders.append(path)
+            elif path.is_file():
+                if not is_workbook_name(path.name):
+                    raise InputError(f"`PATH` must be a folder or an .xlsx/.xlsm workbook; got '{raw}'")
+                self.workbooks.append(path)
+            else:
+                raise InputError(f"`PATH` must be an existing folder or workbook; '{raw}' does not exist")
+        self._refresh = refresh
+        self._quiet = float(quiet)
+        self._poll = poll
+        self._initial = initial
+        self._log = log if log is not None else WatchLog()
+        self._on_outcome = on_outcome
+        self._stop_grace = stop_grace
+        self._workers = workers
+        self._probe = probe
+        self._observer: Any = None
+        self._debouncer: Debouncer | None = None
+        self._worker: RefreshWorker | None = None
+        self._stopped = False
+        self._lock = threading.Lock()
+        self.how = ""
+
+    # -- life cycle ----------------------------------------------------------------------------------
+    def start(self) -> None:
+        """Start the worker, the debouncer and the observer; log the startup line; queue the initial pass."""
+        refresh = self._refresh if self._refresh is not None else _load_refresh()
+        self._worker = RefreshWorker(refresh, on_outcome=self._outcome, workers=self._workers)
+        self._debouncer = Debouncer(
+            self._worker.submit, quiet=self._quiet, probe=self._probe,
+            on_waiting=self._waiting, on_resumed=self._resumed, on_rejected=self._rejected,
+        )
+        self._worker.start()
+        self._debouncer.start()
+        try:
+            self._observer, self.how = self._start_observer()
+        except BaseException:
+            self._stopped = True
+            self._debouncer.stop()
+            self._worker.stop(grace=0.0)
+            raise
+        watched = [f"{p} (folder, recursive)" for p in self.folders]
+        watched += [f"{p} (workbook)" for p in self.workbooks]
+        self._log.event(
+            "start",
+            f"tocsin watch: watching {', '.join(watched)}; {self.how}; quiet {self._quiet:g} s; "
+            f"initial refresh {'on' if self._initial else 'off'}",
+            folders=[str(p) for p in self.folders], workbooks=[str(p) for p in self.workbooks],
+            observer=self.how, quiet_s=self._quiet, initial=self._initial,
+        )
+        if self._initial:
+            for path in self.existing_workbooks():
+                self._debouncer.submit(path, delay=0.0)
+
+    def stop(self, reason: str = "stopped") -> None:
+        """Stop observing, drop what is pending, finish or abandon the refresh in flight; log it."""
+        with self._lock:
+            if self._stopped:
+                return
+            self._stopped = True
+        if self._observer is not None:
+            self._observer.stop()
+        dropped: list[Path] = []
+        if self._debouncer is not None:
+            dropped += self._debouncer.stop()
+        clean = True
+        if self._worker is not None:
+            queued, clean = self._worker.stop(grace=self._stop_grace)
+            dropped += [p for p in queued if p not in dropped]
+        if self._observer is not None:
+            self._observer.join(2.0)
+        text = f"tocsin watch: {reason}"
+        if dropped:
+            text += f"; {len(dropped)} workbook(s) not yet refreshed (the next start picks them up)"
+        if not clean:
+            text += "; a refresh was still running and was left to the atomic write"
+        self._log.event("stop", text, reason=reason, pending=[str(p) for p in dropped], clean=clean)
+
+    def __enter__(self) -> Watcher:
+        self.start()
+        return self
+
+    def __exit__(self, *_exc: object) -> None:
+        self.stop()
+
+    def idle(self) -> bool:
+        """True when nothing is pending in the debouncer and the worker has nothing to do."""
+        pending = self._debouncer is not None and bool(self._debouncer.pending())
+        return not pending and not (self._worker is not None and self._worker.busy())
+
+    def existing_workbooks(self) -> Iterator[Path]:
+        """The workbooks present now under the watched folders, and the watched workbooks themselves."""
+        seen: set[Path] = set()
+        for folder in self.folders:
+            for root, dirs, files in os.walk(folder):
+                dirs.sort()
+                for name in sorted(files):
+                    path = Path(root) / name
+                    if is_workbook_name(name) and path not in seen:
+                        seen.add(path)
+                        yield path
+        for path in self.workbooks:
+            if path not in seen:
+                seen.add(path)
+                yield path
+
+    # -- observer ------------------------------------------------------------------------------------
+    def _start_observer(self) -> tuple[Any, str]:
+        from watchdog.observers import Observer
+        from watchdog.observers.polling import PollingObserver
+
+        if self._poll is not None:
+            observer = self._schedule(PollingObserver(timeout=self._poll))
+            observer.start()
+            return observer, f"polling every {self._poll:g} s"
+        observer = Observer()
+        try:
+            self._schedule(observer)
+            observer.start()
+            return observer, f"native observer ({type(observer).__name__})"
+        except OSError as exc:  # e.g. the inotify watch limit: fall back to polling
+            reason = f"{type(exc).__name__}: {exc}"
+            observer.unschedule_all()
+        observer = self._schedule(PollingObserver(timeout=FALLBACK_POLL))
+        observer.start()
+        return observer, f"polling every {FALLBACK_POLL:g} s (the native observer could not start: {reason})"
+
+    def _schedule(self, observer: Any) -> Any:
+        handler = _Forwarder(self._forward)
+        event_filter = _event_filter()
+        for folder in self.folders:
+            observer.schedule(handler, str(folder), recursive=True, event_filter=event_filter)
+        parents = {p.parent for p in self.workbooks}
+        for parent in sorted(parents):
+            if not any(parent.is_relative_to(folder) for folder in self.folders):
+                observer.schedule(handler, str(parent), recursive=False, event_filter=event_filter)
+        return observer
+
+    # -- callbacks -----------------------------------------------------------------------------------
+    def _forward(self, raw: str) -> None:
+        """On the observer thread: map a path to the workbook it concerns and note the event. No I/O."""
+        path = Path(raw)
+        target = path if is_workbook_name(path.name) else workbook_of_owner_file(path)
+        if target is None or self._debouncer is None:
+            return
+        if target in self.workbooks or any(target.is_relative_to(folder) for folder in self.folders):
+            self._debouncer.submit(target)
+
+    def _outcome(self, outcome: Outcome) -> None:
+        self._log.outcome(outcome)
+        if outcome.status == "conflict" and self._debouncer is not None:
+            self._debouncer.submit(outcome.path)  # changed while computing: start again once it settles
+        if self._on_outcome is not None:
+            self._on_outcome(outcome)
+
+    def _waiting(self, path: Path, owner: Path) -> None:
+        self._log.event("waiting", f"waiting    {path}  is open elsewhere (owner file {owner.name}); "
+                                   "refreshing once it is closed", workbook=str(path), owner_file=str(owner))
+
+    def _resumed(self, path: Path) -> None:
+        self._log.event("resumed", f"resumed    {path}  was closed; refreshing once it is quiet",
+                        workbook=str(path))
+
+    def _rejected(self, path: Path, reason: str) -> None:
+        self._log.event("rejected", f"failed     {path}  {reason}", workbook=str(path), message=reason)
+
+
+# -- command line ------------------------------------------------------------------------------------
+def _seconds(flag: str, *, positive: bool) -> Callable[[str], float]:
+    def parse(text: str) -> float:
+        try:
+            value = float(text)
+        except ValueError:
+            value = float("nan")
+        if not (value > 0 if positive else value >= 0) or value == float("inf"):
+            raise argparse.ArgumentTypeError(
+                f"`{flag}` must be a number of seconds {'> 0' if positive else '>= 0'}; got '{text}'")
+        return value
+    return parse
+
+
+def add_watch_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentParser:
+    """Add ``PATH... [--poll SECONDS] [--quiet SECONDS] [--no-initial] [--log FILE]`` to ``parser``."""
+    parser.add_argument("paths", nargs="+", metavar="PATH",
+                        help="folders (watched recursively) and/or .xlsx/.xlsm workbooks")
+    parser.add_argument("--poll", type=_seconds("--poll", positive=True), metavar="SECONDS", default=None,
+                        help="scan for changes every SECONDS instead of using the system's file events "
+                             "(for network shares and synced folders, where those events do not arrive)")
+    parser.add_argument("--quiet", type=_seconds("--quiet", positive=False), metavar="SECONDS", default=1.0,
+                        help="refresh a workbook once it has been saved and left alone this long "
+                             "(default: 1)")
+    parser.add_argument("--no-initial", action="store_true",
+                        help="do not refresh, at start, the workbooks whose inputs changed while tocsin "
+                             "was not watching")
+    parser.add_argument("--log", metavar="FILE", default=None,
+                        help="also append one JSON object per event (refresh, waiting, start, stop) to FILE")
+    return parser
+
+
+def run_watch(args: argparse.Namespace) -> int:
+    """Run the watcher from parsed arguments (see ``add_watch_arguments``); returns the exit code."""
+    return main_watch(args.paths, poll=args.poll, quiet=args.quiet, initial=not args.no_initial, log=args.log)
+
+
+def main_watch(
+    paths: Sequence[str | os.PathLike[str]],
+    poll: float | None = None,
+    quiet: float = 1.0,
+    initial: bool = True,
+    log: str | os.PathLike[str] | None = None,
+    *,
+    refresh: Callable[..., Any] | None = None,
+    stop_event: threading.Event | None = None,
+) -> int:
+    """Watch until SIGTERM, Ctrl-C or ``stop_event``; return 0, or 2 for bad arguments, 1 if it cannot run.
+
+    Errors print ``error: ...`` on stderr, without a traceback.
+    """
+    from sheetfns.errors import InputError
+
+    stop = stop_event if stop_event is not None else threading.Event()
+    try:
+        watch_log = WatchLog(sys.stderr, log)
+    except OSError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return 2
+    try:
+        watcher = Watcher(paths, refresh=refresh, quiet=quiet, poll=poll, initial=initial, log=watch_log)
+    except InputError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        watch_log.close()
+        return 2
+    reason = {"text": "stopped"}
+
+    def on_term(signum: int, _frame: object) -> None:
+        reason["text"] = f"stopped ({signal.Signals(signum).name})"
+        stop.set()
+
+    previous = None
+    in_main = threading.current_thread() is threading.main_thread()
+    if in_main and hasattr(signal, "SIGTERM"):
+        previous = signal.signal(signal.SIGTERM, on_term)
+    try:
+        try:
+            watcher.start()
+        except (ImportError, OSError) as exc:
+            print(f"error: the watcher cannot start: {exc}", file=sys.stderr)
+            return 1
+        while not stop.wait(0.2):
+            pass
+    except KeyboardInterrupt:
+        reason["text"] = "stopped (Ctrl-C)"
+    finally:
+        try:
+            watcher.stop(reason["text"])
+        except KeyboardInterrupt:  # a second Ctrl-C while stopping: stop harder, still exit 0
+            pass
+        if previous is not None:
+            signal.signal(signal.SIGTERM, previous)
+        watch_log.close()
+    return 0
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """``python -m watcher.watch PATH... [options]``: the same as ``tocsin watch``."""
+    parser = add_watch_arguments(argparse.ArgumentParser(
+        prog="tocsin watch",
+        description="Keep tocsin's forecast sheets current: refresh each workbook whenever it is saved."))
+    return run_watch(parser.parse_args(argv))
+
+
+if __name__ == "__main__":
+    sys.exit(main())

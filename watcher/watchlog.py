@@ -1,0 +1,118 @@
+"""The watcher's log: one human line per event on stderr, and optionally a JSON-lines file.
+
+Every refresh attempt gives one line: local time, status, workbook, jobs, duration (and a line per failed
+job naming it). The JSON-lines file (``--log FILE``) carries the same facts as one object per line, for a
+scheduler or a monitoring script to read::
+
+    {"time": "2026-05-09T10:11:12+02:00", "event": "refresh", "workbook": "/share/ferry.xlsx",
+     "status": "refreshed", "duration_s": 0.84, "message": "", "jobs": [{"name": "crowded", ...}]}
+
+Other events: "start" (what is watched and how), "waiting" (owner file present), "resumed", "rejected"
+(incomplete package), "stop". The file is opened for appending and flushed after every line.
+"""
+from __future__ import annotations
+
+import json
+import math
+import sys
+import threading
+from datetime import datetime
+from pathlib import Path
+from typing import IO, Any
+
+from watcher.refresh_worker import Outcome
+
+__all__ = ["WatchLog"]
+
+
+def _plain(value: Any) -> Any:
+    """A JSON-safe copy: NaN/inf -> None, paths and other objects -> str, containers recursively."""
+    if value is None or isinstance(value, bool | int | str):
+        return value
+    if isinstance(value, float):
+        return value if math.isfinite(value) else None
+    if isinstance(value, dict):
+        return {str(k): _plain(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_plain(v) for v in value]
+    try:
+        number = float(value)  # numpy scalars
+    except (TypeError, ValueError):
+        return str(value)
+    return number if math.isfinite(number) else None
+
+
+class WatchLog:
+    """Write the watcher's events to a text stream and, if given, a JSON-lines file.
+
+    Parameters
+    ----------
+    stream : text stream, optional
+        Where human lines go (default ``sys.stderr``); None for no human lines.
+    json_path : path-like, optional
+        The JSON-lines file (appended to).
+    """
+
+    def __init__(self, stream: IO[str] | None = sys.stderr, json_path: str | Path | None = None) -> None:
+        self._stream = stream
+        self._lock = threading.Lock()
+        self._json: IO[str] | None = None
+        if json_path is not None:
+            try:
+                self._json = open(json_path, "a", encoding="utf-8")  # noqa: SIM115  (closed in close())
+            except OSError as exc:
+                raise OSError(f"cannot open the log file '{json_path}' for appending: "
+                              f"{exc.strerror or exc}") from exc
+
+    def close(self) -> None:
+        """Close the JSON-lines file."""
+        with self._lock:
+            if self._json is not None:
+                self._json.close()
+                self._json = None
+
+    def event(self, kind: str, text: str, **fields: Any) -> None:
+        """Log one event: ``text`` on the stream, ``{"time", "event": kind, **fields}`` in the file."""
+        now = datetime.now().astimezone()
+        record = {"time": now.isoformat(timespec="milliseconds"), "event": kind}
+        record.update({k: _plain(v) for k, v in fields.items()})
+        with self._lock:
+            if self._stream is not None:
+                try:
+                    self._stream.write(f"{now:%Y-%m-%d %H:%M:%S}  {text}\n")
+                    self._stream.flush()
+                except (OSError, ValueError):
+                    pass  # a closed stderr must not stop the watcher
+            if self._json is not None:
+                self._json.write(json.dumps(record, ensure_ascii=False) + "\n")
+                self._json.flush()
+
+    def outcome(self, outcome: Outcome) -> None:
+        """Log one refresh attempt (and one extra line per failed job)."""
+        jobs = outcome.jobs
+        failed = [job for job in jobs if job.status != "ok"]
+        if not jobs:
+            jobs_text = "no jobs run"
+        elif failed:
+            jobs_text = f"{len(jobs)} job{'s' * (len(jobs) != 1)} ({len(failed)} failed)"
+        else:
+            jobs_text = f"{len(jobs)} job{'s' * (len(jobs) != 1)} ok"
+        text = f"{outcome.status:<9}  {outcome.path}  {jobs_text}  {outcome.duration_s:.2f} s"
+        if outcome.message:
+            text += f"  {outcome.message}"
+        for job in failed:
+            text += f"\n    job '{job.name}' {job.status}: {job.message}"
+        fields: dict[str, Any] = {
+            "workbook": str(outcome.path),
+            "status": outcome.status,
+            "duration_s": round(outcome.duration_s, 4),
+            "message": outcome.message,
+            "jobs": [
+                {"name": j.name, "status": j.status, "message": j.message,
+                 "next_forecast": j.next_forecast, "best_method": j.best_method}
+                for j in jobs
+            ],
+        }
+        if outcome.traceback:
+            fields["traceback"] = outcome.traceback
+        self.event("refresh", text, **fields)
