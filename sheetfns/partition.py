@@ -1,0 +1,399 @@
+"""Training / validation split of a series, by a count of periods or by a first validation date.
+
+Also the calendar facts other parts need: the frequency of a date column (:func:`infer_frequency`),
+and the job table's defaults derived from it (:func:`default_season`, :func:`default_cycle`,
+DESIGN.md §7). Dates are checked here once: unsorted or duplicate dates are errors that name the first
+offending rows (1-based positions in the series), gaps in a regular series are reported, not refused.
+
+A series of n rows is cut into three consecutive periods::
+
+    rows 0 .. train_size-1                 training
+    rows train_size .. n_obs-1             validation  (valid_size rows)
+    rows n_obs .. n-1                      future      (trailing rows after the last observation)
+
+where n_obs is the position after the last observed event (all n rows when no events are given).
+"""
+from __future__ import annotations
+
+import datetime as _dt
+import math
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from sheetfns.checks import as_events, last_observed
+from sheetfns.errors import InputError, PartitionError
+
+__all__ = ["Gap", "Split", "split", "as_dates", "infer_frequency", "default_season", "default_cycle"]
+
+_DAY = np.timedelta64(1, "D")
+_SEASON = {"daily": 7, "weekly": 52, "monthly": 12, "quarterly": 4}
+_CYCLE = {"daily": 365.25, "weekly": 52.18, "monthly": 12.0}
+_UNIT = {"daily": "day", "weekly": "week", "monthly": "month", "quarterly": "quarter"}
+DEFAULT_VALIDATION_SHARE = 0.2
+
+
+@dataclass(frozen=True)
+class Gap:
+    """A hole in a regular date series: ``missing`` periods lie between rows ``row - 1`` and ``row``
+    (1-based positions), dated ``before`` and ``after``."""
+
+    row: int
+    before: Any
+    after: Any
+    missing: int
+
+
+@dataclass(frozen=True)
+class Split:
+    """The periods of a series. Sizes are row counts; positions are 0-based; dates are pandas
+    Timestamps (None when the index is a row count).
+
+    Attributes
+    ----------
+    train_size, valid_size, future_size : int
+        Rows in the training period, the validation period, and after the last observation.
+    n : int
+        All rows (``train_size + valid_size + future_size``).
+    first_valid : int
+        0-based position of the first validation row (equal to ``train_size``).
+    first_valid_date, last_observed_date : Timestamp or None
+    frequency : str or None
+        ``'daily'``, ``'weekly'``, ``'monthly'``, ``'quarterly'`` or None (see :func:`infer_frequency`).
+    gaps : tuple of Gap
+        Holes in a regular date series (reported, not an error).
+    train_events, valid_events, train_observed, valid_observed : int or None
+        Events and observed (non-blank) rows per period, when ``events`` was given.
+    notes : tuple of str
+        Plain-words remarks (gaps, irregular dates, a validation date that falls between rows).
+    """
+
+    train_size: int
+    valid_size: int
+    future_size: int
+    n: int
+    first_valid: int
+    first_valid_date: Any = None
+    last_observed_date: Any = None
+    frequency: str | None = None
+    gaps: tuple[Gap, ...] = ()
+    train_events: int | None = None
+    valid_events: int | None = None
+    train_observed: int | None = None
+    valid_observed: int | None = None
+    notes: tuple[str, ...] = ()
+
+    @property
+    def train(self) -> slice:
+        return slice(0, self.train_size)
+
+    @property
+    def valid(self) -> slice:
+        return slice(self.train_size, self.train_size + self.valid_size)
+
+    @property
+    def future(self) -> slice:
+        return slice(self.train_size + self.valid_size, self.n)
+
+
+# ---------------------------------------------------------------- dates
+
+
+def _show_date(d: np.datetime64) -> str:
+    s = str(np.datetime_as_string(d, unit="s"))
+    return s[:10] if s.endswith("T00:00:00") else s.replace("T", " ")
+
+
+def _is_date_scalar(v: Any) -> bool:
+    return isinstance(v, (_dt.date, np.datetime64))
+
+
+def as_dates(values: Any, name: str = "dates") -> np.ndarray:
+    """Return ``values`` as a 1-D ``datetime64[us]`` array; every row must hold a date.
+
+    Accepts ``datetime.date`` / ``datetime.datetime`` / ``numpy.datetime64`` / pandas ``Timestamp``
+    values (time-zone-aware ones are read as their wall-clock time), a datetime64 array, or a pandas
+    DatetimeIndex / Series. A blank or a non-date value is an error naming the row.
+    """
+    if hasattr(values, "dtype") and getattr(values.dtype, "kind", "") == "M":
+        if getattr(values.dtype, "tz", None) is not None:       # tz-aware pandas data
+            values = values.dt.tz_localize(None) if hasattr(values, "dt") else values.tz_localize(None)
+        arr = np.asarray(values).astype("datetime64[us]")
+    else:
+        if hasattr(values, "tolist"):
+            values = values.tolist()
+        try:
+            seq = list(values)
+        except TypeError as exc:
+            raise InputError(f"`{name}` must be a sequence of dates; got {values!r}") from exc
+        if seq and isinstance(seq[0], (list, tuple)):      # a one-column spreadsheet range
+            seq = [v[0] if isinstance(v, (list, tuple)) and len(v) == 1 else v for v in seq]
+        types = set(map(type, seq))
+        if not all(issubclass(t, (_dt.date, np.datetime64)) for t in types):
+            i = next(i for i, v in enumerate(seq) if not _is_date_scalar(v))
+            v = seq[i]
+            blank = v is None or (isinstance(v, float) and math.isnan(v)) or repr(v) == "NaT"
+            what = "a blank" if blank else repr(v)
+            raise InputError(f"`{name}` must hold a date in every row; got {what} in row {i + 1}")
+        import pandas as pd
+        try:
+            idx = pd.DatetimeIndex(seq)
+        except (TypeError, ValueError):      # zone-aware values of several zones
+            try:
+                idx = pd.DatetimeIndex([pd.Timestamp(v).tz_localize(None) for v in seq])
+            except (TypeError, ValueError) as exc:
+                raise InputError(f"`{name}` must hold dates; {exc}") from exc
+        if idx.tz is not None:               # keep the wall-clock time
+            idx = idx.tz_localize(None)
+        arr = idx.to_numpy().astype("datetime64[us]")
+    if arr.ndim == 2 and 1 in arr.shape:
+        arr = arr.reshape(-1)
+    if arr.ndim != 1:
+        raise InputError(f"`{name}` must be one-dimensional; got shape {arr.shape}")
+    nat = np.isnat(arr)
+    if nat.any():
+        raise InputError(f"`{name}` must hold a date in every row; got a blank in row "
+                         f"{int(np.flatnonzero(nat)[0]) + 1}")
+    return arr
+
+
+def _check_order(d: np.ndarray, name: str) -> None:
+    if d.size < 2:
+        return
+    bad = np.flatnonzero(d[1:] <= d[:-1])
+    if bad.size:
+        i = int(bad[0]) + 1
+        if d[i] == d[i - 1]:
+            raise PartitionError(f"`{name}` has duplicate dates: rows {i} and {i + 1} are both "
+                                 f"{_show_date(d[i])}")
+        raise PartitionError(f"`{name}` dates must be in increasing order; row {i + 1} "
+                             f"({_show_date(d[i])}) is earlier than row {i} ({_show_date(d[i - 1])})")
+
+
+def _month_parts(d: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    days = d.astype("datetime64[D]")
+    months = d.astype("datetime64[M]")
+    first = months.astype("datetime64[D]")
+    day = (days - first).astype(np.int64) + 1
+    length = ((months + 1).astype("datetime64[D]") - first).astype(np.int64)
+    tod = (d - days).astype(np.int64)
+    return months.astype(np.int64), day, length, tod
+
+
+def _steps(d: np.ndarray, freq: str) -> np.ndarray:
+    """Steps between consecutive dates in periods of ``freq``."""
+    if freq in ("daily", "weekly"):
+        base = _DAY * (1 if freq == "daily" else 7)
+        return (np.diff(d) // base).astype(np.int64)
+    months = d.astype("datetime64[M]").astype(np.int64)
+    return np.diff(months) // (1 if freq == "monthly" else 3)
+
+
+def _frequency(d: np.ndarray) -> str | None:
+    if d.size < 2:
+        return None
+    diffs = np.diff(d)
+    if (diffs <= np.timedelta64(0)).any():
+        return None
+    for freq, base in (("daily", _DAY), ("weekly", 7 * _DAY)):
+        if not (diffs % base).any() and np.mean(diffs == base) >= 0.5:
+            return freq
+    months, day, length, tod = _month_parts(d)
+    anchored = (day == np.minimum(day[0], length)).all() or (day == length).all()
+    if not anchored or (tod != tod[0]).any():
+        return None
+    dm = np.diff(months)
+    if not (dm % 3).any() and np.mean(dm == 3) >= 0.5:
+        return "quarterly"
+    if np.mean(dm == 1) >= 0.5:
+        return "monthly"
+    return None
+
+
+def infer_frequency(dates: Any) -> str | None:
+    """The frequency of a date column: ``'daily'``, ``'weekly'``, ``'monthly'``, ``'quarterly'``,
+    or None when the dates are irregular or of another frequency (hourly, yearly, ...).
+
+    A series has a frequency F when every step between consecutive dates is a whole number of F's
+    periods and at least half of the steps are exactly one period; gaps are allowed. Monthly and
+    quarterly dates must fall on the same day of the month (clamped to the month's length, or all
+    on month ends) at the same time of day. Fewer than two dates, or dates not strictly increasing,
+    give None.
+
+    Examples
+    --------
+    >>> import datetime as dt
+    >>> infer_frequency([dt.date(2024, 1, 31), dt.date(2024, 2, 29), dt.date(2024, 3, 31)])
+    'monthly'
+    """
+    return _frequency(as_dates(dates))
+
+
+def default_season(freq: str | None) -> int:
+    """The seasonal-naive period for a frequency (DESIGN.md §7): 7 daily, 52 weekly, 12 monthly,
+    4 quarterly, 1 otherwise."""
+    return _SEASON.get(freq or "", 1)
+
+
+def default_cycle(freq: str | None) -> float | None:
+    """The Fourier period of the logistic model for a frequency (DESIGN.md §7): 365.25 daily,
+    52.18 weekly, 12 monthly, None otherwise."""
+    return _CYCLE.get(freq or "")
+
+
+def _gaps(d: np.ndarray, freq: str | None) -> tuple[Gap, ...]:
+    if freq is None or d.size < 2:
+        return ()
+    import pandas as pd
+    steps = _steps(d, freq)
+    where = np.flatnonzero(steps > 1)
+    return tuple(Gap(row=int(i) + 2, before=pd.Timestamp(d[i]), after=pd.Timestamp(d[i + 1]),
+                     missing=int(steps[i]) - 1) for i in where)
+
+
+# ---------------------------------------------------------------- the split
+
+
+def _validation_date(validation: Any) -> np.datetime64 | None:
+    if isinstance(validation, str):
+        try:
+            return np.datetime64(_dt.datetime.fromisoformat(validation.strip()), "us")
+        except ValueError:
+            raise InputError(f"`validation` must be a number of periods or a date; got "
+                             f"{validation!r}") from None
+    if _is_date_scalar(validation):
+        if isinstance(validation, _dt.datetime) and validation.tzinfo is not None:
+            validation = validation.replace(tzinfo=None)
+        d = np.datetime64(validation, "us")
+        return None if np.isnat(d) else d
+    return None
+
+
+def _validation_count(validation: Any) -> int:
+    if isinstance(validation, (bool, np.bool_)):
+        raise InputError(f"`validation` must be a number of periods or a date; got {validation!r}")
+    try:
+        f = float(validation)
+    except (TypeError, ValueError):
+        raise InputError(f"`validation` must be a number of periods or a date; got "
+                         f"{validation!r}") from None
+    if not math.isfinite(f) or f != int(f):
+        raise InputError(f"`validation` must be a whole number of periods or a date; got {validation!r}")
+    return int(f)
+
+
+def split(index: Any, validation: Any = None, *, events: Any = None) -> Split:
+    """Cut a series into training, validation and future periods.
+
+    Parameters
+    ----------
+    index : int or sequence of dates
+        The number of rows, or one date per row (strictly increasing).
+    validation : int, date or None
+        An int k: the last k observed periods (rows up to the last observation, interior blanks
+        included) are the validation period. A date (``datetime.date``, ``datetime``,
+        ``numpy.datetime64``, pandas ``Timestamp`` or ISO text ``'2010-01-03'``): the first validation
+        date; rows dated before it are training rows. None: the last 20% of the observed rows,
+        rounded half up, at least one.
+    events : sequence of 0/1/NaN, optional
+        The event series. Its trailing blank rows are the future period, and the events and observed
+        rows of each period are counted.
+
+    Returns
+    -------
+    Split
+
+    Raises
+    ------
+    PartitionError
+        Unsorted or duplicate dates; a validation that leaves no training rows or no validation rows.
+        The message names the first offending rows (1-based) and their dates.
+    InputError
+        A malformed argument (a row without a date, an events column of another length, ...).
+
+    Examples
+    --------
+    >>> s = split(10, 3, events=[0, 1, 0, 0, 1, 1, 0, 1, None, None])
+    >>> (s.train_size, s.valid_size, s.future_size, s.train_events, s.valid_events)
+    (5, 3, 2, 2, 2)
+    """
+    dates = None
+    if isinstance(index, (int, np.integer)) and not isinstance(index, (bool, np.bool_)):
+        n = int(index)
+        if n < 0:
+            raise InputError(f"`index` must be a number of rows >= 0 or a sequence of dates; got {n}")
+    else:
+        dates = as_dates(index, "index")
+        n = dates.size
+        _check_order(dates, "index")
+    if n < 2:
+        raise InputError(f"`index` must have at least 2 rows to split; got {n}")
+    ev = None
+    n_obs = n
+    if events is not None:
+        ev = as_events(events, "events", allow_empty=True)
+        if ev.size != n:
+            raise InputError(f"`events` has {ev.size} rows but `index` has {n}")
+        n_obs = last_observed(ev) + 1
+        if n_obs == 0:
+            raise InputError(f"`events` has no observed values (all {n} rows are blank)")
+
+    notes: list[str] = []
+    vdate = _validation_date(validation)
+    if vdate is not None:
+        if dates is None:
+            raise InputError(f"`validation` is a date ({_show_date(vdate)}) but `index` is a row count; "
+                             f"give one date per row to split by date")
+        train = int(np.searchsorted(dates, vdate, side="left"))
+        if train == 0:
+            raise PartitionError(f"`validation` {_show_date(vdate)} leaves no training rows: the first "
+                                 f"date is {_show_date(dates[0])} (row 1)")
+        if train >= n_obs:
+            raise PartitionError(f"`validation` {_show_date(vdate)} leaves no validation rows: the last "
+                                 f"observed date is {_show_date(dates[n_obs - 1])} (row {n_obs})")
+        if dates[train] != vdate:
+            notes.append(f"no row is dated {_show_date(vdate)}; validation starts at the next date, "
+                         f"{_show_date(dates[train])} (row {train + 1})")
+    else:
+        if validation is None:
+            k = max(1, math.floor(DEFAULT_VALIDATION_SHARE * n_obs + 0.5))
+        else:
+            k = _validation_count(validation)
+        if k < 1:
+            raise PartitionError(f"`validation` {k} leaves no validation rows: give at least 1 period")
+        if k >= n_obs:
+            raise PartitionError(f"`validation` {k} leaves no training rows: there are {n_obs} observed "
+                                 f"rows (rows 1 to {n_obs})")
+        train = n_obs - k
+
+    freq = gaps = None
+    first_date = last_date = None
+    if dates is not None:
+        import pandas as pd
+        freq = _frequency(dates)
+        gaps = _gaps(dates, freq)
+        first_date, last_date = pd.Timestamp(dates[train]), pd.Timestamp(dates[n_obs - 1])
+        if freq is None:
+            notes.append("the dates are irregular (not daily, weekly, monthly or quarterly)")
+        elif gaps:
+            g = gaps[0]
+            missing = sum(x.missing for x in gaps)
+            notes.append(f"{len(gaps)} gap{'s' * (len(gaps) > 1)} in the {freq} dates ({missing} "
+                         f"missing {_UNIT[freq]}{'s' * (missing > 1)}); the first between row "
+                         f"{g.row - 1} ({_show_date(dates[g.row - 2])}) and row {g.row} "
+                         f"({_show_date(dates[g.row - 1])})")
+    counts: dict[str, int | None] = dict.fromkeys(
+        ("train_events", "valid_events", "train_observed", "valid_observed"))
+    if ev is not None:
+        tr, va = ev[:train], ev[train:n_obs]
+        if np.isnan(tr).all():
+            shown = _show_date(vdate) if vdate is not None else validation
+            raise PartitionError(f"`validation` {shown} leaves no observed training rows: rows 1 "
+                                 f"to {train} of `events` are blank")
+        counts = {"train_events": int(np.nansum(tr)), "valid_events": int(np.nansum(va)),
+                  "train_observed": int(np.count_nonzero(~np.isnan(tr))),
+                  "valid_observed": int(np.count_nonzero(~np.isnan(va)))}
+    return Split(train_size=train, valid_size=n_obs - train, future_size=n - n_obs, n=n,
+                 first_valid=train, first_valid_date=first_date, last_observed_date=last_date,
+                 frequency=freq, gaps=gaps or (), notes=tuple(notes), **counts)
