@@ -21,6 +21,7 @@ from __future__ import annotations
 import datetime as dt
 import functools
 import re
+import warnings
 from collections.abc import Callable, Sequence
 from typing import Any, TypeVar
 
@@ -313,6 +314,22 @@ def option_float(value: Any, name: str, default: float | None, *, positive: bool
     return f
 
 
+def required_float(value: Any, name: str, what: str) -> float:
+    """A required number argument; a blank says what the argument is for."""
+    f = option_float(value, name, None)
+    if f is None:
+        raise InputError(f"`{name}` is required: {what}, a number; got a blank")
+    return f
+
+
+def omitted(value: Any) -> bool:
+    """True for an optional range argument that was left out or points at a single blank cell."""
+    try:
+        return _blank(_single(value, "value"))
+    except InputError:
+        return False
+
+
 def option_text(value: Any, name: str, default: str | None) -> str | None:
     """An optional text argument: blank or omitted gives ``default``."""
     value = _single(value, name)
@@ -373,12 +390,17 @@ def error_value(exc: BaseException) -> str:
 
 
 def guarded(fn: _F) -> _F:
-    """Decorate a spreadsheet function so that it never raises: an exception becomes its error text."""
+    """Decorate a spreadsheet function so that it never raises: an exception becomes its error text.
+
+    Warnings are silenced inside the call: a cell cannot show one, and what they report (an undefined
+    score) already shows as a blank."""
 
     @functools.wraps(fn)
     def wrapper(*args: Any) -> Any:
         try:
-            return fn(*args)
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                return fn(*args)
         except Exception as exc:  # noqa: BLE001 - a cell must show a message, never a traceback
             return error_value(exc)
 

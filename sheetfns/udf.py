@@ -1,0 +1,150 @@
+"""tocsin's spreadsheet functions: the core as formulas next to the data (xlwings user-defined functions).
+
+Point the xlwings add-in's "UDF Modules" setting at ``sheetfns.udf`` and import the functions; then
+``=EVENT_FLAG(B2:B2930, ">=1150")`` spills a 0/1 column next to the passengers. Each function is a
+thin wrapper, in four steps: coerce the ranges (``sheetfns._coerce``), call the core module, map NaN to
+a blank cell, return a column of the input's height or a small table with a header row. Bad input
+never raises into the spreadsheet: the cell shows ``#tocsin: `` and what to fix.
+
+This is the only module of tocsin that imports xlwings. Off Windows xlwings' ``func`` / ``arg`` /
+``ret`` decorators register nothing, so the tests call these functions as plain functions, exactly as
+the add-in does. The coercion is our own code, not xlwings' converters (which do nothing off Windows);
+the one xlwings option used is ``ndim=2`` on range arguments, so that on the desktop a range always
+arrives as a list of rows and a row range can be told from a column. Native dynamic arrays (Microsoft
+365 / Excel 2021 and later) spill a returned list of rows without any return decorator.
+
+Type hints are ``Any`` aliases on purpose: xlwings turns an argument's type hint into a converter, and
+only the plain value converter does what our coercion expects.
+"""
+from __future__ import annotations
+
+from typing import Any
+
+try:
+    import xlwings as xw
+except ImportError as _exc:  # pragma: no cover - exercised in a subprocess test
+    raise ImportError(
+        "sheetfns.udf (the spreadsheet functions) needs xlwings, which is not installed; install it "
+        "with: pip install 'tocsin[excel]'. The rest of tocsin (sheetfns.events, ..., the watcher) "
+        "works without it.") from _exc
+
+from sheetfns import _coerce as c
+from sheetfns import events, scores
+from sheetfns.checks import same_length
+
+Cells = Any   # a range: a list of rows, a flat list (a column) or a single value
+Value = Any   # a single cell or a literal typed into the formula; None when blank or omitted
+Spill = Any   # a list of rows that spills, a single value, or a '#tocsin: ...' error text
+
+CATEGORY = "tocsin"
+
+__all__ = [
+    "EVENT_FLAG", "EVENT_SCORES", "EVENT_CONFUSION", "EVENT_BRIER", "EVENT_CUTOFF", "EVENT_COMPARE",
+]
+
+# One-line descriptions for the function wizard (Excel shows at most 255 characters of each).
+_ACTUAL = "What happened: a column of 1 (event), 0 (no event) or blank, e.g. the output of EVENT_FLAG."
+_FORECAST = "The 0/1 forecast for the same rows, e.g. the output of EVENT_NAIVE or EVENT_MAJORITY."
+_PROBABILITY = "Optional: the forecast probability for the same rows (0 to 1), e.g. from EVENT_LOGIT."
+
+
+# ------------------------------------------------------------------------------------------- events
+@xw.func(category=CATEGORY)
+@xw.arg("values", ndim=2, doc="The data column: numbers, TRUE/FALSE or text, one cell per period.")
+@xw.arg("criterion", doc='The event rule as text: ">=1150", "<0", "=alarm", "rise", "fall>2", "rise%>=5".')
+@xw.arg("min_run", doc="Optional: the rule must hold this many periods in a row (default 1).")
+@c.guarded
+def EVENT_FLAG(values: Cells, criterion: Value, min_run: Value = 1) -> Spill:
+    """Turn a column into events: 1 where the rule holds, 0 where it does not, blank where unknown.
+
+    Spills a column of the same height. Example: =EVENT_FLAG(B2:B2930, ">=1150")."""
+    x = c.number_column(values, "values", keep_text=True)
+    rule = c.criterion_text(criterion)
+    k = c.option_int(min_run, "min_run", 1, minimum=1)
+    return c.to_column(events.flag(x, rule, k))
+
+
+# ------------------------------------------------------------------------------------------- scores
+def _pair(actual: Cells, forecast: Cells, forecast_name: str = "forecast"
+          ) -> tuple[Any, Any]:
+    a = c.event_column(actual, "actual")
+    f = c.event_column(forecast, forecast_name)
+    same_length(actual=a, **{forecast_name: f})
+    return a, f
+
+
+@xw.func(category=CATEGORY)
+@xw.arg("actual", ndim=2, doc=_ACTUAL)
+@xw.arg("forecast", ndim=2, doc=_FORECAST)
+@xw.arg("probability", ndim=2, doc=_PROBABILITY)
+@c.guarded
+def EVENT_SCORES(actual: Cells, forecast: Cells, probability: Cells = None) -> Spill:
+    """Score a 0/1 forecast (and optionally a probability) against what happened; blank rows skipped.
+
+    Spills a two-column table: measure, value. Example: =EVENT_SCORES(C2000:C2930, D2000:D2930)."""
+    a, f = _pair(actual, forecast)
+    table = scores.categorical(a, f)
+    if not c.omitted(probability):
+        p = c.prob_column(probability, "probability")
+        same_length(actual=a, probability=p)
+        table.update(scores.probabilistic(a, p))
+    return c.to_table(["measure", "value"], table.items())
+
+
+@xw.func(category=CATEGORY)
+@xw.arg("actual", ndim=2, doc=_ACTUAL)
+@xw.arg("forecast", ndim=2, doc=_FORECAST)
+@c.guarded
+def EVENT_CONFUSION(actual: Cells, forecast: Cells) -> Spill:
+    """Count hits, false alarms, misses and correct negatives of a 0/1 forecast; blank rows skipped.
+
+    Spills a 3 x 3 table: forecast down the side, actual across. Example: =EVENT_CONFUSION(C2:C99, D2:D99)."""
+    t = scores.confusion(*_pair(actual, forecast))
+    return c.to_table(["forecast \\ actual", "event", "no event"],
+                      [["event", t.hits, t.false_alarms], ["no event", t.misses, t.correct_negatives]])
+
+
+@xw.func(category=CATEGORY)
+@xw.arg("actual", ndim=2, doc=_ACTUAL)
+@xw.arg("probability", ndim=2, doc="The forecast probability for the same rows (0 to 1).")
+@c.guarded
+def EVENT_BRIER(actual: Cells, probability: Cells) -> Spill:
+    """Brier score of a probability forecast and its parts: reliability, resolution, uncertainty.
+
+    Spills a two-column table: measure, value (10 probability bins). Example: =EVENT_BRIER(C2:C99, E2:E99)."""
+    a = c.event_column(actual, "actual")
+    p = c.prob_column(probability, "probability")
+    same_length(actual=a, probability=p)
+    d = scores.brier_decomposition(a, p)
+    return c.to_table(["measure", "value"],
+                      [[k, d[k]] for k in ("brier", "reliability", "resolution", "uncertainty", "n")])
+
+
+@xw.func(category=CATEGORY)
+@xw.arg("cost_false_alarm", doc="The cost of one false alarm (acting when nothing happens), >= 0.")
+@xw.arg("cost_miss", doc="The cost of one miss (not acting when the event happens), >= 0.")
+@c.guarded
+def EVENT_CUTOFF(cost_false_alarm: Value, cost_miss: Value) -> Spill:
+    """The probability above which warning costs less on average: cost_false_alarm / (sum of both).
+
+    Returns one number. Example: =EVENT_CUTOFF(1, 4) gives 0.2."""
+    cfa = c.required_float(cost_false_alarm, "cost_false_alarm", "the cost of one false alarm")
+    cmiss = c.required_float(cost_miss, "cost_miss", "the cost of one miss")
+    return c.cell(scores.cost_cutoff(cfa, cmiss))
+
+
+@xw.func(category=CATEGORY)
+@xw.arg("actual", ndim=2, doc=_ACTUAL)
+@xw.arg("forecast_a", ndim=2, doc="The first 0/1 forecast for the same rows.")
+@xw.arg("forecast_b", ndim=2, doc="The second 0/1 forecast for the same rows.")
+@c.guarded
+def EVENT_COMPARE(actual: Cells, forecast_a: Cells, forecast_b: Cells) -> Spill:
+    """McNemar's test: are two 0/1 forecasts right equally often? A small p_value says they differ.
+
+    Spills a two-column table: statistic, p_value. Example: =EVENT_COMPARE(C2:C99, D2:D99, E2:E99)."""
+    a = c.event_column(actual, "actual")
+    fa = c.event_column(forecast_a, "forecast_a")
+    fb = c.event_column(forecast_b, "forecast_b")
+    same_length(actual=a, forecast_a=fa, forecast_b=fb)
+    stat, pvalue = scores.mcnemar(a, fa, fb)
+    return c.to_table(["measure", "value"], [["statistic", stat], ["p_value", pvalue]])
