@@ -240,8 +240,13 @@ def probabilistic(actual: Any, prob: Any, reference: Any = None, *,
         loss = q.mark("log_loss")
     else:
         brier = float(np.mean((p - a) ** 2))
-        pc = np.clip(p, LOG_LOSS_EPS, 1.0 - LOG_LOSS_EPS)
-        loss = -float(np.mean(np.where(a == 1.0, np.log(pc), np.log1p(-pc))))
+        # Log of the probability given to what happened, floored at log(eps): the same as clipping
+        # p to [eps, 1 - eps] without the rounding of 1 - eps; log1p keeps small p exact.
+        floor = math.log(LOG_LOSS_EPS)
+        with np.errstate(divide="ignore"):
+            logp = np.where(a == 1.0, np.log(np.maximum(p, LOG_LOSS_EPS)),
+                            np.maximum(np.log1p(-p), floor))
+        loss = -float(np.mean(logp))
     rel, res, unc = _decompose(a, p, bins, q)[:3]
     if r is None:
         bs_ref = unc
