@@ -291,3 +291,14 @@ def test_all_nan_rows_give_zero_counts_and_nan_scores():
     with pytest.warns(scores.UndefinedScoreWarning):
         s = scores.categorical([nan, nan], [1, 0])
     assert s["n"] == 0 and math.isnan(s["accuracy"])
+
+
+def test_docstring_examples_run():
+    import doctest
+
+    from sheetfns import _categorical, _probabilistic, _significance
+
+    for module in (_categorical, _probabilistic, _significance):
+        result = doctest.testmod(module, extraglobs={"np": np}, optionflags=doctest.ELLIPSIS)
+        assert result.failed == 0, module.__name__
+    assert doctest.testmod(_categorical).attempted >= 4
