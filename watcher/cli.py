@@ -1,34 +1,142 @@
 """The ``tocsin`` command: init, check, refresh, watch and demo (argparse; ``main(argv) -> int``).
 
-Exit codes: 0 success, 1 a job or file failed, 2 usage error, 130 interrupted. Errors print
-``error: ...`` on stderr with no traceback unless ``--debug`` is given.
+Exit codes: 0 success, 1 a job or a workbook failed, 2 usage error, 130 interrupted. Errors print
+``error: ...`` on stderr with no traceback unless ``--debug`` is given. Heavy libraries (pandas,
+statsmodels) are imported only by the commands that compute, so ``tocsin --help`` starts fast.
 """
 from __future__ import annotations
 
 import argparse
+import json
 import sys
 from collections.abc import Sequence
-
-from watcher import __name__ as _pkg  # noqa: F401  (keeps the import light: no pandas/statsmodels here)
+from pathlib import Path
 
 VERSION = "0.1.0"
+CAUTION = ("Caution: these are statistical forecasts from past data, not a substitute for official "
+           "warnings, clinical or engineering judgement, or the procedures that apply where you work.")
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse with our message shape; usage errors exit 2 as usual."""
+
+    def error(self, message: str):  # type: ignore[override]
+        self.print_usage(sys.stderr)
+        self.exit(2, f"error: {message}\n")
 
 
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="tocsin",
         description="Event forecasts in shared workbooks: will it happen? tocsin reads the job table "
                     "(sheet 'tocsin') of a workbook, forecasts each event with benchmark methods and a "
                     "logistic model, scores them on a validation period and writes forecast sheets "
                     "into the workbook, leaving everything else in the file untouched.",
-        epilog="Caution: these are statistical forecasts from past data, not a substitute for official "
-               "warnings, clinical or engineering judgement, or the procedures that apply where you work.",
+        epilog=CAUTION,
     )
     parser.add_argument("--version", action="version", version=f"tocsin {VERSION}")
     parser.add_argument("--debug", action="store_true", help="show tracebacks on errors")
-    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
-    sub.add_parser("demo", help="copy the sample workbooks into a folder and refresh them")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+
+    p = sub.add_parser("init", help="add a job table (sheet 'tocsin') with one job to a workbook",
+                       description="Add a 'tocsin' job table with one forecast job to BOOK. Refuses if "
+                                   "the workbook already has one. Edit the table afterwards to add jobs.")
+    p.add_argument("book", type=Path, metavar="BOOK", help="the .xlsx / .xlsm workbook")
+    p.add_argument("--sheet", required=True, help="the data sheet")
+    p.add_argument("--value", required=True, metavar="COL", help="value column: header text or letter")
+    p.add_argument("--date", metavar="COL", help="date column (guessed when not given)")
+    p.add_argument("--event", required=True, metavar="CRIT",
+                   help="event criterion, e.g. '>=1150', 'fall', 'rise%%>=2', '=alarm'")
+    p.add_argument("--job", help="job name (default: from the value column)")
+
+    p = sub.add_parser("check", help="validate the job table and print each job's scorecard",
+                       description="Validate the job table of BOOK and print, per job, the validation "
+                                   "scorecard. Writes nothing. Exit 1 on any error.")
+    p.add_argument("book", type=Path, metavar="BOOK")
+
+    p = sub.add_parser("refresh", help="compute every job and write the forecast sheets",
+                       description="Refresh the forecast and profile sheets of each workbook. A workbook "
+                                   "whose inputs are unchanged since the last refresh is not rewritten.")
+    p.add_argument("books", type=Path, nargs="+", metavar="BOOK")
+    p.add_argument("--json", action="store_true", help="print a machine-readable report")
+    p.add_argument("--force", action="store_true", help="rewrite even when the inputs are unchanged")
+
+    from watcher import watch as _watch  # light: watchdog is imported when the watcher starts
+
+    p = sub.add_parser("watch", help="keep forecast sheets current whenever a workbook is saved",
+                       description="Watch folders (recursively) or single workbooks and refresh each "
+                                   "workbook shortly after it is saved. Stop with Ctrl-C.")
+    _watch.add_watch_arguments(p)
+
+    p = sub.add_parser("demo", help="copy the sample workbooks into a folder and refresh them",
+                       description="Copy the bundled sample workbooks into DIR, refresh them and print "
+                                   "their scorecards.")
+    p.add_argument("dir", type=Path, nargs="?", default=Path("tocsin-demo"), metavar="DIR",
+                   help="target folder (default: ./tocsin-demo)")
     return parser
+
+
+def _stderr_progress():
+    """A progress callback writing to stderr when it is a terminal, else None."""
+    if not sys.stderr.isatty():
+        return None
+
+    def progress(message: str) -> None:
+        sys.stderr.write(f"\r\x1b[K{message}")
+        sys.stderr.flush()
+
+    return progress
+
+
+def _cmd_init(args: argparse.Namespace) -> int:
+    from watcher import refresh
+
+    job = refresh.init_workbook(args.book, sheet=args.sheet, value=args.value, date=args.date,
+                                event=args.event, job=args.job)
+    print(f"{args.book}: added sheet 'tocsin' with job '{job}'. Run: tocsin refresh {args.book}")
+    return 0
+
+
+def _cmd_check(args: argparse.Namespace) -> int:
+    from watcher import refresh, report
+
+    result = refresh.check_workbook(args.book, progress=_stderr_progress())
+    if sys.stderr.isatty():
+        sys.stderr.write("\r\x1b[K")
+    print(report.check_text(result))
+    return 0 if result.ok else 1
+
+
+def _cmd_refresh(args: argparse.Namespace) -> int:
+    from watcher import refresh, report
+
+    reports = []
+    for book in args.books:
+        rep = refresh.refresh_workbook(book, force=args.force, progress=_stderr_progress())
+        if sys.stderr.isatty():
+            sys.stderr.write("\r\x1b[K")
+        reports.append(rep)
+        if not args.json:
+            print(report.refresh_text(rep))
+    if args.json:
+        print(json.dumps([report.refresh_dict(r) for r in reports], indent=2))
+    return 0 if all(r.ok for r in reports) else 1
+
+
+def _cmd_watch(args: argparse.Namespace) -> int:
+    from watcher import watch
+
+    return watch.run_watch(args)
+
+
+def _cmd_demo(args: argparse.Namespace) -> int:
+    from watcher import demo
+
+    return demo.run_demo(args.dir, progress=_stderr_progress())
+
+
+COMMANDS = {"init": _cmd_init, "check": _cmd_check, "refresh": _cmd_refresh, "watch": _cmd_watch,
+            "demo": _cmd_demo}
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -37,8 +145,28 @@ def main(argv: Sequence[str] | None = None) -> int:
     if args.command is None:
         parser.print_help()
         return 2
-    print("tocsin: the forecasting commands are not built yet (foundation only).", file=sys.stderr)
-    return 0
+    from sheetfns.errors import TocsinError
+
+    try:
+        return COMMANDS[args.command](args)
+    except KeyboardInterrupt:
+        print("interrupted", file=sys.stderr)
+        return 130
+    except (TocsinError, OSError) as exc:
+        if args.debug:
+            raise
+        print(f"error: {_describe(exc)}", file=sys.stderr)
+        return 1
+
+
+def _describe(exc: BaseException) -> str:
+    if isinstance(exc, FileNotFoundError):
+        return f"{exc.filename}: no such file"
+    if isinstance(exc, PermissionError):
+        return f"{exc.filename}: permission denied"
+    if isinstance(exc, OSError) and exc.filename:
+        return f"{exc.filename}: {exc.strerror}"
+    return str(exc)
 
 
 if __name__ == "__main__":
