@@ -86,8 +86,8 @@ def rig():
         deb = Debouncer(
             lambda p: rec.ready.append((p, time.monotonic())), quiet=kwargs.pop("quiet", QUIET), probe=probe,
             on_waiting=lambda p, o: rec.waiting.append((p, o)), on_resumed=rec.resumed.append,
-            on_rejected=lambda p, why: rec.rejected.append((p, why)), owner_poll=kwargs.pop("owner_poll", 0.02),
-            **kwargs,
+            on_rejected=lambda p, why: rec.rejected.append((p, why)),
+            owner_poll=kwargs.pop("owner_poll", 0.02), **kwargs,
         )
         deb.start()
         made.append(deb)

@@ -8,9 +8,10 @@ Two parts, both free of threads' knowledge of file-system events:
   tocsin's own temporaries (``.tocsin-*.tmp``, written by the package writer in the workbook's folder).
 * **The debouncer** (``Debouncer``): one thread and one ``Condition`` for all paths, with a deadline per
   path. Every new event for a path restarts that path's wait. When a path has been quiet for ``quiet``
-  seconds, the debouncer checks it through a ``FileProbe``: no owner file (else it waits, polling, and
-  says so once), size, mtime and inode the same at two looks ``settle`` seconds apart, and the file opens
-  as a complete zip package. Only then does it hand the path on, once.
+  seconds, the debouncer checks it through a ``FileProbe``: the file exists (else the path is dropped),
+  no owner file says it is open (else it waits, polling, and says so once), size, mtime and inode are the
+  same at two looks ``settle`` seconds apart, and it opens as a complete zip package. Only then does it
+  hand the path on, once.
 
 A ``FileProbe`` is the only part that touches the disk, so the debouncer can be tested with synthetic
 events and a fake probe.
@@ -287,6 +288,12 @@ class Debouncer:
                 return True
 
         now = time.monotonic
+        stat = self._probe.stat(path)
+        if stat is None:  # deleted, or moved away: nothing to refresh
+            with self._cond:
+                if self._pending.get(path) is state and state.version == version:
+                    del self._pending[path]
+            return
         owner = self._probe.owner(path)
         if owner is not None:
             first = state.owner is None
@@ -296,12 +303,6 @@ class Debouncer:
         if state.owner is not None:
             if update(owner=None, stat=None, due=now() + self._quiet):
                 self._on_resumed(path)
-            return
-        stat = self._probe.stat(path)
-        if stat is None:
-            with self._cond:
-                if self._pending.get(path) is state and state.version == version:
-                    del self._pending[path]
             return
         if stat != state.stat:
             update(stat=stat, due=now() + self._settle)
