@@ -381,10 +381,20 @@ def to_table(header: Sequence[Any], rows: Sequence[Sequence[Any]]) -> list[list[
     return [[cell(v) for v in header]] + [[cell(v) for v in row] for row in rows]
 
 
+# The core's argument names where the spreadsheet functions call the argument differently.
+_SHEET_NAMES = {"`y`": "`events`", "`train_size`": "`train_rows`", "`prob`": "`probability`"}
+
+
 def error_value(exc: BaseException) -> str:
-    """The text a cell shows for a failed call: ``#tocsin: `` then what to fix."""
+    """The text a cell shows for a failed call: ``#tocsin: `` then what to fix.
+
+    Argument names in the core's messages are given their spreadsheet names (``train_size`` is
+    ``train_rows`` in a formula)."""
     if isinstance(exc, TocsinError):
-        return ERROR_PREFIX + str(exc)
+        text = str(exc)
+        for core, sheet in _SHEET_NAMES.items():
+            text = text.replace(core, sheet)
+        return ERROR_PREFIX + text
     return (f"{ERROR_PREFIX}unexpected error ({type(exc).__name__}: {exc}); please report it with the "
             "inputs that caused it")
 

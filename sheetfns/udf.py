@@ -29,7 +29,7 @@ except ImportError as _exc:  # pragma: no cover - exercised in a subprocess test
         "works without it.") from _exc
 
 from sheetfns import _coerce as c
-from sheetfns import events, scores
+from sheetfns import benchmarks, events, scores
 from sheetfns.checks import same_length
 
 Cells = Any   # a range: a list of rows, a flat list (a column) or a single value
@@ -39,12 +39,18 @@ Spill = Any   # a list of rows that spills, a single value, or a '#tocsin: ...' 
 CATEGORY = "tocsin"
 
 __all__ = [
-    "EVENT_FLAG", "EVENT_SCORES", "EVENT_CONFUSION", "EVENT_BRIER", "EVENT_CUTOFF", "EVENT_COMPARE",
+    "EVENT_FLAG", "EVENT_NAIVE", "EVENT_MAJORITY", "EVENT_SHARE",
+    "EVENT_SCORES", "EVENT_CONFUSION", "EVENT_BRIER", "EVENT_CUTOFF", "EVENT_COMPARE",
 ]
 
 # One-line descriptions for the function wizard (Excel shows at most 255 characters of each).
 _ACTUAL = "What happened: a column of 1 (event), 0 (no event) or blank, e.g. the output of EVENT_FLAG."
 _FORECAST = "The 0/1 forecast for the same rows, e.g. the output of EVENT_NAIVE or EVENT_MAJORITY."
+_EVENTS = "The event column: 1 (event), 0 (no event) or blank; blanks at the end are future periods."
+_HORIZON = "Optional: periods ahead, the forecast for row t is made at row t - horizon (default 1)."
+_TRAIN_ROWS = ("Optional: the first train_rows rows are the training period and later forecasts are made "
+               "from its end; blank = roll forward every period (default).")
+_WINDOW = "Optional: how many of the latest observed periods count (default blank: all of them)."
 _PROBABILITY = "Optional: the forecast probability for the same rows (0 to 1), e.g. from EVENT_LOGIT."
 
 
@@ -62,6 +68,61 @@ def EVENT_FLAG(values: Cells, criterion: Value, min_run: Value = 1) -> Spill:
     rule = c.criterion_text(criterion)
     k = c.option_int(min_run, "min_run", 1, minimum=1)
     return c.to_column(events.flag(x, rule, k))
+
+
+# --------------------------------------------------------------------------------------- benchmarks
+@xw.func(category=CATEGORY)
+@xw.arg("events", ndim=2, doc=_EVENTS)
+@xw.arg("horizon", doc=_HORIZON)
+@xw.arg("season", doc="Optional: the seasonal period, e.g. 7 for daily data with a weekly pattern "
+                      "(default 1).")
+@xw.arg("train_rows", doc=_TRAIN_ROWS)
+@c.guarded
+def EVENT_NAIVE(events: Cells, horizon: Value = 1, season: Value = 1, train_rows: Value = None) -> Spill:
+    """Naive forecast: what happened last time (season 1) or one season ago (season m), blanks skipped.
+
+    Spills a 0/1 column of the same height. Example: =EVENT_NAIVE(D2:D2930, 1, 7)."""
+    y = c.event_column(events, "events")
+    return c.to_column(benchmarks.naive(
+        y, horizon=c.option_int(horizon, "horizon", 1, minimum=1),
+        season=c.option_int(season, "season", 1, minimum=1),
+        train_size=c.option_int(train_rows, "train_rows", None, minimum=1)))
+
+
+def _majority_args(window: Value, train_rows: Value, horizon: Value) -> dict[str, Any]:
+    return {"window": c.option_int(window, "window", None, minimum=1),
+            "train_size": c.option_int(train_rows, "train_rows", None, minimum=1),
+            "horizon": c.option_int(horizon, "horizon", 1, minimum=1)}
+
+
+@xw.func(category=CATEGORY)
+@xw.arg("events", ndim=2, doc=_EVENTS)
+@xw.arg("window", doc=_WINDOW)
+@xw.arg("train_rows", doc=_TRAIN_ROWS)
+@xw.arg("horizon", doc=_HORIZON)
+@c.guarded
+def EVENT_MAJORITY(events: Cells, window: Value = None, train_rows: Value = None,
+                   horizon: Value = 1) -> Spill:
+    """Majority vote: 1 when more than half of the periods so far (or in the window) had the event.
+
+    An exact tie repeats the latest value. Spills a 0/1 column. Example: =EVENT_MAJORITY(D2:D2930, 28)."""
+    y = c.event_column(events, "events")
+    return c.to_column(benchmarks.majority_vote(y, **_majority_args(window, train_rows, horizon)))
+
+
+@xw.func(category=CATEGORY)
+@xw.arg("events", ndim=2, doc=_EVENTS)
+@xw.arg("window", doc=_WINDOW)
+@xw.arg("train_rows", doc=_TRAIN_ROWS)
+@xw.arg("horizon", doc=_HORIZON)
+@c.guarded
+def EVENT_SHARE(events: Cells, window: Value = None, train_rows: Value = None,
+                horizon: Value = 1) -> Spill:
+    """Share of periods so far (or in the window) that had the event: the majority method's probability.
+
+    Spills a column of probabilities. Example: =EVENT_SHARE(D2:D2930, , 2343)."""
+    y = c.event_column(events, "events")
+    return c.to_column(benchmarks.majority_share(y, **_majority_args(window, train_rows, horizon)))
 
 
 # ------------------------------------------------------------------------------------------- scores

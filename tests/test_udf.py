@@ -21,7 +21,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from sheetfns import events, scores
+from sheetfns import benchmarks, events, scores
 from sheetfns import udf as U
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -207,6 +207,35 @@ def test_event_flag_column_has_the_input_height_and_single_cell_works():
     assert len(U.EVENT_FLAG([[None]] * 5 + [[3.0]], ">0")) == 6
 
 
+@pytest.mark.parametrize("horizon, season, train_rows", [(1, 1, None), (3, 1, None), (1, 7, None),
+                                                         (2, 7, 300), (None, None, 250.0)])
+def test_event_naive_equals_core(data, horizon, season, train_rows):
+    a = data["actual"].copy()
+    a[-5:] = np.nan                                   # future periods
+    got = column(U.EVENT_NAIVE(cells(a), horizon, season, train_rows))
+    expected = benchmarks.naive(a, horizon=horizon or 1, season=season or 1,
+                                train_size=None if train_rows is None else int(train_rows))
+    np.testing.assert_array_equal(got, expected)
+
+
+@pytest.mark.parametrize("window, train_rows, horizon", [(None, None, 1), (28, None, 1), (None, 300, 1),
+                                                         (10, 250, 4)])
+def test_event_majority_and_share_equal_core(data, window, train_rows, horizon):
+    a = data["actual"].copy()
+    a[-5:] = np.nan
+    kw = {"window": window, "train_size": train_rows, "horizon": horizon}
+    np.testing.assert_array_equal(column(U.EVENT_MAJORITY(cells(a), window, train_rows, horizon)),
+                                  benchmarks.majority_vote(a, **kw))
+    got = column(U.EVENT_SHARE(cells(a), window, train_rows, horizon))
+    np.testing.assert_allclose(got, benchmarks.majority_share(a, **kw), rtol=0, atol=1e-12)
+
+
+def test_benchmarks_accept_true_false_cells_and_omitted_middle_arguments():
+    log = [[True], [False], [True], [True], [None]]
+    assert U.EVENT_MAJORITY(log, None, None) == U.EVENT_MAJORITY([[1.0], [0.0], [1.0], [1.0], [None]])
+    assert U.EVENT_NAIVE(log, None, None, 3.0) == [[None], [1.0], [0.0], [1.0], [1.0]]
+
+
 def test_event_scores_equal_core_and_sklearn(data):
     from sklearn.metrics import brier_score_loss, confusion_matrix, roc_auc_score
 
@@ -287,6 +316,16 @@ def test_row_range_where_a_column_is_expected():
     assert out == ("#tocsin: `values` must be a single column (one cell per period, top to bottom); "
                    "got a row of 3 cells: select the cells down a column instead")
     assert U.EVENT_CONFUSION([[1.0, 0.0]], [[1.0, 0.0]]).startswith("#tocsin: `actual` must be a single")
+
+
+def test_too_few_rows():
+    assert U.EVENT_NAIVE([[1.0]]) == "#tocsin: `events` must have at least 2 rows; got 1"
+    assert U.EVENT_SHARE([[None], [None]]) == \
+        "#tocsin: `events` has no observed values (all 2 rows are blank)"
+    # the core's names are given their spreadsheet names: train_size -> train_rows
+    assert U.EVENT_NAIVE([[1.0], [0.0], [1.0]], 1, 1, 5) == \
+        "#tocsin: `train_rows` must be at most the number of observed rows (3); got 5"
+    assert U.EVENT_MAJORITY([[1.0], [0.0], [1.0]], 9).startswith("#tocsin: `window` must be at most")
 
 
 def test_wrong_values_name_the_argument_and_row():
