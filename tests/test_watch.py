@@ -172,11 +172,6 @@ class FakeRefresh:
             if progress is not None:
                 progress("compute")
             time.sleep(min(0.02, max(end - time.monotonic(), 0)))
-        after = os.stat(path)
-        if (after.st_size, after.st_mtime_ns, after.st_ino) != (before.st_size, before.st_mtime_ns,
-                                                                  before.st_ino):
-            self._note(path, "conflict", digest)
-            return FakeReport(path, "conflict", message="changed while computing; nothing written")
         tmp = path.with_name(f".tocsin-{uuid.uuid4().hex[:8]}.tmp")
         try:
             with zipfile.ZipFile(path) as src, zipfile.ZipFile(tmp, "w") as dst:
@@ -186,10 +181,15 @@ class FakeRefresh:
                 dst.writestr(MARKER, digest)
             if progress is not None:
                 progress("write")
+            after = os.stat(path)  # changed while computing? then write nothing
+            if (after.st_size, after.st_mtime_ns, after.st_ino) != (before.st_size, before.st_mtime_ns,
+                                                                      before.st_ino):
+                self._note(path, "conflict", digest)
+                return FakeReport(path, "conflict", message="changed while computing; nothing written")
             os.replace(tmp, path)
         finally:
             tmp.unlink(missing_ok=True)
-        self._recorded[path] = input_digest(path)
+        self._recorded[path] = digest  # the inputs of what was written (the marker is not an input)
         self._note(path, "refreshed", digest)
         return FakeReport(path, "refreshed", jobs=(FakeJob("crowded"), FakeJob("quiet day")),
                           duration_s=time.perf_counter() - start)
@@ -202,7 +202,7 @@ class Rig:
         self.folder = folder
         self.refresh = kwargs.pop("refresh", None) or FakeRefresh()
         self.log_path = folder.parent / f"{folder.name}-log.jsonl"
-        self.stream = io.StringIO()
+        self.stream = kwargs.pop("stream", None) or io.StringIO()
         self.log = WatchLog(self.stream, self.log_path)
         self.watcher = Watcher(kwargs.pop("paths", [folder]), refresh=self.refresh,
                                quiet=kwargs.pop("quiet", QUIET), log=self.log, **kwargs)
