@@ -34,8 +34,9 @@ ERROR_PREFIX = "#tocsin: "
 
 _F = TypeVar("_F", bound=Callable[..., Any])
 _PLAIN_NUMBER = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?")
-_EXCEL_EPOCH = np.datetime64("1899-12-30", "ns")  # serial 0 of the 1900 date system (serials >= 61)
-_NS_PER_DAY = 86_400 * 10**9
+_EXCEL_EPOCH = np.datetime64("1899-12-30", "us")  # serial 0 of the 1900 date system (serials >= 61)
+_US_PER_DAY = 86_400 * 10**6
+_LAST_SERIAL = 2_958_465                            # 9999-12-31, the last date of the 1900 date system
 _NONE = type(None)
 
 
@@ -166,32 +167,32 @@ def numbers(cells: Sequence[Any], name: str, *, keep_text: bool = False) -> np.n
 
 
 def dates(cells: Sequence[Any], name: str) -> np.ndarray:
-    """Return ``cells`` as a ``datetime64[ns]`` array (NaT for blanks).
+    """Return ``cells`` as a ``datetime64[us]`` array (NaT for blanks).
 
     Accepted: dates and date-times, date serial numbers of the 1900 date system (a date column that is
     formatted as numbers), and ISO text dates such as ``"2024-03-31"``.
     """
     kinds = set(map(type, cells))
     if kinds <= {dt.datetime, dt.date, _NONE}:
-        return np.array(cells, dtype="datetime64[ns]").reshape(-1)
-    out = np.empty(len(cells), dtype="datetime64[ns]")
+        return np.array(cells, dtype="datetime64[us]").reshape(-1)
+    out = np.empty(len(cells), dtype="datetime64[us]")
     for i, v in enumerate(cells):
         if v is None or (isinstance(v, str) and v.strip() == ""):
             out[i] = np.datetime64("NaT")
         elif isinstance(v, (dt.datetime, dt.date)):
-            out[i] = np.datetime64(v, "ns")
+            out[i] = np.datetime64(v, "us")
         elif isinstance(v, (bool, np.bool_)):
             raise _cell_error(name, i, "dates", v)
         elif isinstance(v, (int, float, np.number)):
-            if not np.isfinite(v) or v < 0:
+            if not (np.isfinite(v) and 0 <= v < _LAST_SERIAL + 1):
                 raise _cell_error(name, i, "dates", v)
-            out[i] = _EXCEL_EPOCH + np.timedelta64(int(round(float(v) * _NS_PER_DAY)), "ns")
+            out[i] = _EXCEL_EPOCH + np.timedelta64(int(round(float(v) * _US_PER_DAY)), "us")
         elif isinstance(v, str):
             try:
-                out[i] = np.datetime64(dt.date.fromisoformat(v.strip()), "ns")
+                out[i] = np.datetime64(dt.date.fromisoformat(v.strip()), "us")
             except ValueError:
                 try:
-                    out[i] = np.datetime64(dt.datetime.fromisoformat(v.strip()), "ns")
+                    out[i] = np.datetime64(dt.datetime.fromisoformat(v.strip()), "us")
                 except ValueError:
                     raise _cell_error(name, i, "dates (or text dates like 2024-03-31)", v) from None
         else:

@@ -20,6 +20,8 @@ from __future__ import annotations
 
 from typing import Any
 
+import numpy as np
+
 try:
     import xlwings as xw
 except ImportError as _exc:  # pragma: no cover - exercised in a subprocess test
@@ -29,8 +31,9 @@ except ImportError as _exc:  # pragma: no cover - exercised in a subprocess test
         "works without it.") from _exc
 
 from sheetfns import _coerce as c
-from sheetfns import benchmarks, events, scores
+from sheetfns import benchmarks, events, logistic, profile, scores
 from sheetfns.checks import same_length
+from sheetfns.errors import InputError
 
 Cells = Any   # a range: a list of rows, a flat list (a column) or a single value
 Value = Any   # a single cell or a literal typed into the formula; None when blank or omitted
@@ -39,8 +42,8 @@ Spill = Any   # a list of rows that spills, a single value, or a '#tocsin: ...' 
 CATEGORY = "tocsin"
 
 __all__ = [
-    "EVENT_FLAG", "EVENT_NAIVE", "EVENT_MAJORITY", "EVENT_SHARE",
-    "EVENT_SCORES", "EVENT_CONFUSION", "EVENT_BRIER", "EVENT_CUTOFF", "EVENT_COMPARE",
+    "EVENT_FLAG", "EVENT_NAIVE", "EVENT_MAJORITY", "EVENT_SHARE", "EVENT_LOGIT", "EVENT_LOGIT_COEFS",
+    "EVENT_SCORES", "EVENT_CONFUSION", "EVENT_BRIER", "EVENT_RATE_TABLE", "EVENT_CUTOFF", "EVENT_COMPARE",
 ]
 
 # One-line descriptions for the function wizard (Excel shows at most 255 characters of each).
@@ -123,6 +126,91 @@ def EVENT_SHARE(events: Cells, window: Value = None, train_rows: Value = None,
     Spills a column of probabilities. Example: =EVENT_SHARE(D2:D2930, , 2343)."""
     y = c.event_column(events, "events")
     return c.to_column(benchmarks.majority_share(y, **_majority_args(window, train_rows, horizon)))
+
+
+# ----------------------------------------------------------------------------------------- logistic
+def _logit(events: Cells, predictors: Cells, train_rows: Value, horizon: Value, lags: Value,
+           cycle: Value, harmonics: Value) -> logistic.LogitForecast:
+    y = c.event_column(events, "events")
+    named = None
+    if not c.omitted(predictors):
+        x, labels = c.number_table(predictors, "predictors", rows=y.size)
+        named = {label: x[:, j] for j, label in enumerate(labels)}
+    return logistic.forecast(
+        y, predictors=named,
+        train_size=c.option_int(train_rows, "train_rows", None, minimum=1),
+        horizon=c.option_int(horizon, "horizon", 1, minimum=1),
+        lags=c.option_int(lags, "lags", 1, minimum=0),
+        cycle=c.option_float(cycle, "cycle", None, positive=True),
+        harmonics=c.option_int(harmonics, "harmonics", 2, minimum=0))
+
+
+def _logit_args(f: Any) -> Any:
+    """The argument descriptions shared by EVENT_LOGIT and EVENT_LOGIT_COEFS."""
+    for name, doc in reversed([
+        ("events", _EVENTS),
+        ("predictors", "Optional: columns of other data for the same rows, read `horizon` periods "
+                       "earlier; a header row on top names them."),
+        ("train_rows", _TRAIN_ROWS),
+        ("horizon", _HORIZON),
+        ("lags", "Optional: how many past events enter the model (default 1; 0 for none)."),
+        ("cycle", "Optional: the length of a yearly (or other) cycle in rows, e.g. 365.25 for daily "
+                  "data; blank = no cycle."),
+        ("harmonics", "Optional: sine/cosine pairs describing the cycle (default 2)."),
+    ]):
+        f = xw.arg(name, ndim=2, doc=doc)(f) if name in ("events", "predictors") else \
+            xw.arg(name, doc=doc)(f)
+    return f
+
+
+@xw.func(category=CATEGORY, call_in_wizard=False)
+@_logit_args
+@c.guarded
+def EVENT_LOGIT(events: Cells, predictors: Cells = None, train_rows: Value = None, horizon: Value = 1,
+                lags: Value = 1, cycle: Value = None, harmonics: Value = 2) -> Spill:
+    """Probability of the event from a logistic regression on past events, predictors and a cycle.
+
+    Spills a column of probabilities, blank where it cannot forecast.
+    Example: =EVENT_LOGIT(D2:D2930, , 2343)."""
+    fc = _logit(events, predictors, train_rows, horizon, lags, cycle, harmonics)
+    if np.isnan(fc.prob).all():          # a column of blanks would not say why: show the notes
+        raise InputError("no row could be forecast: " + "; ".join(fc.notes))
+    return c.to_column(fc.prob)
+
+
+@xw.func(category=CATEGORY, call_in_wizard=False)
+@_logit_args
+@c.guarded
+def EVENT_LOGIT_COEFS(events: Cells, predictors: Cells = None, train_rows: Value = None,
+                      horizon: Value = 1, lags: Value = 1, cycle: Value = None, harmonics: Value = 2
+                      ) -> Spill:
+    """The coefficients behind EVENT_LOGIT (same arguments): term, estimate, std_error, z, p, then notes.
+
+    Spills a table with a header row. Example: =EVENT_LOGIT_COEFS(D2:D2930, , 2343)."""
+    fc = _logit(events, predictors, train_rows, horizon, lags, cycle, harmonics)
+    t = fc.coefficients
+    cols = ["term", "estimate", "std_error", "z", "p"]
+    rows = [list(r) for r in t[cols].itertuples(index=False)]
+    rows += [[f"note: {note}", None, None, None, None] for note in fc.notes]
+    return c.to_table(cols, rows)
+
+
+# ------------------------------------------------------------------------------------------- profile
+@xw.func(category=CATEGORY)
+@xw.arg("dates", ndim=2, doc="The date column, one date per row.")
+@xw.arg("events", ndim=2, doc="The event column for the same rows: 1, 0 or blank (blanks are left out).")
+@xw.arg("by", doc='Optional: rows of the table, "month" (default), "week", "weekday" or "quarter".')
+@c.guarded
+def EVENT_RATE_TABLE(dates: Cells, events: Cells, by: Value = "month") -> Spill:
+    """Share of periods with the event, by month (or week, weekday, quarter) down and year across.
+
+    Then the pooled share, events and rows. Example: =EVENT_RATE_TABLE(A2:A2930, D2:D2930, "month")."""
+    d = c.date_column(dates, "dates")
+    y = c.event_column(events, "events")
+    same_length(dates=d, events=y)
+    t = profile.rate_table(d, y, by=c.option_text(by, "by", "month"))
+    return c.to_table([t.index.name, *t.columns], [[label, *row] for label, row in
+                                                     zip(t.index, t.itertuples(index=False), strict=True)])
 
 
 # ------------------------------------------------------------------------------------------- scores

@@ -21,7 +21,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from sheetfns import benchmarks, events, scores
+from sheetfns import benchmarks, events, logistic, profile, scores
 from sheetfns import udf as U
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -234,6 +234,93 @@ def test_benchmarks_accept_true_false_cells_and_omitted_middle_arguments():
     log = [[True], [False], [True], [True], [None]]
     assert U.EVENT_MAJORITY(log, None, None) == U.EVENT_MAJORITY([[1.0], [0.0], [1.0], [1.0], [None]])
     assert U.EVENT_NAIVE(log, None, None, 3.0) == [[None], [1.0], [0.0], [1.0], [1.0]]
+
+
+@pytest.fixture(scope="module")
+def logit_data():
+    rng = np.random.default_rng(11)   # invented data with a real effect of the predictor
+    n = 360
+    temp = rng.standard_normal(n + 3)
+    y = np.full(n + 3, np.nan)
+    y[1:n] = (rng.random(n - 1) < 1 / (1 + np.exp(0.3 - 1.2 * temp[: n - 1]))).astype(float)
+    y[0] = 0.0
+    return y, temp
+
+
+@pytest.mark.parametrize("train_rows, horizon, lags, cycle, harmonics", [
+    (300, 1, 1, None, 2), (None, 1, 2, None, 2), (300, 2, 1, 30.0, 1)])
+def test_event_logit_and_coefs_equal_core(logit_data, train_rows, horizon, lags, cycle, harmonics):
+    y, temp = logit_data
+    pred = [["temp"]] + cells(temp)
+    got = column(U.EVENT_LOGIT(cells(y), pred, train_rows, horizon, lags, cycle, harmonics))
+    fc = logistic.forecast(y, predictors={"temp": temp}, train_size=train_rows, horizon=horizon, lags=lags,
+                           cycle=cycle, harmonics=harmonics)
+    np.testing.assert_allclose(got, fc.prob, rtol=0, atol=1e-12)
+    assert np.isnan(got).tolist() == np.isnan(fc.prob).tolist()
+    out = U.EVENT_LOGIT_COEFS(cells(y), pred, train_rows, horizon, lags, cycle, harmonics)
+    assert out[0] == ["term", "estimate", "std_error", "z", "p"]
+    t = fc.coefficients
+    k = len(t)
+    assert [r[0] for r in out[1:k + 1]] == list(t["term"])
+    np.testing.assert_allclose([r[1:] for r in out[1:k + 1]],
+                               t[["estimate", "std_error", "z", "p"]].to_numpy(), rtol=0, atol=1e-12)
+    assert [r[0] for r in out[k + 1:]] == [f"note: {n}" for n in fc.notes]
+
+
+def test_event_logit_coefs_against_statsmodels(logit_data):
+    import statsmodels.api as sm
+
+    # a fixed fit on the first 300 rows: y[t] on a constant, y[t-1] and temp[t-1], t = 1..299
+    y, temp = logit_data
+    out = U.EVENT_LOGIT_COEFS(cells(y), cells(temp), 300)
+    rows = {r[0]: r[1:] for r in out[1:] if not r[0].startswith("note")}
+    t = np.arange(1, 300)
+    X = np.column_stack([np.ones(t.size), y[t - 1], temp[t - 1]])
+    ref = sm.Logit(y[t], X).fit(disp=0)
+    got = np.array([rows[name] for name in ("constant", "event t-1", "predictors 1")])
+    np.testing.assert_allclose(got[:, 0], ref.params, rtol=1e-7)
+    np.testing.assert_allclose(got[:, 1], ref.bse, rtol=1e-6)
+
+
+def test_event_logit_predictor_errors(logit_data):
+    y, temp = logit_data
+    assert U.EVENT_LOGIT(cells(y), cells(temp)[:-1]) == (
+        f"#tocsin: `predictors` must cover the same rows as the events; the events have {y.size} rows, "
+        f"`predictors` has {y.size - 1}")
+    # too few rows for any fit: the notes say why instead of a column of blanks
+    assert U.EVENT_LOGIT(cells(y[:8])) == (
+        "#tocsin: no row could be forecast: rows 1-8 have no forecast: a roll-forward fit needs at least "
+        "30 usable rows (10 per term, at least 30) observed by its origin; roll-forward: refitted at every "
+        "origin on all usable rows observed by the origin (expanding window)")
+    assert U.EVENT_LOGIT([[1.0]]).startswith("#tocsin: `events` must have at least 2 rows")
+
+
+@pytest.mark.parametrize("by", [None, "month", "week", "weekday", "quarter"])
+def test_event_rate_table_equals_core(data, by):
+    import datetime as dt
+
+    dates = [dt.date(2021, 11, 1) + dt.timedelta(days=i) for i in range(data["actual"].size)]
+    out = U.EVENT_RATE_TABLE([[d] for d in dates], cells(data["actual"]), by)
+    t = profile.rate_table(dates, data["actual"], by=by or "month")
+    assert out[0] == [t.index.name, *t.columns]
+    assert [r[0] for r in out[1:]] == list(t.index)
+    np.testing.assert_allclose(np.array([[np.nan if v is None else v for v in r[1:]] for r in out[1:]],
+                                        dtype=float), t.to_numpy(dtype=float), rtol=0, atol=1e-12)
+
+
+def test_event_rate_table_dates_as_serial_numbers_and_errors(data):
+    import datetime as dt
+
+    from openpyxl.utils.datetime import to_excel
+
+    dates = [dt.date(2021, 11, 1) + dt.timedelta(days=i) for i in range(data["actual"].size)]
+    serials = [[float(to_excel(d))] for d in dates]            # a date column formatted as numbers
+    assert U.EVENT_RATE_TABLE(serials, cells(data["actual"])) == \
+        U.EVENT_RATE_TABLE([[d] for d in dates], cells(data["actual"]))
+    assert U.EVENT_RATE_TABLE([[d] for d in dates[:-1]], cells(data["actual"])).startswith(
+        "#tocsin: inputs must have the same length; `dates` has")
+    assert U.EVENT_RATE_TABLE([[d] for d in dates], cells(data["actual"]), "fortnight") == (
+        "#tocsin: `by` must be one of 'month', 'week', 'weekday', 'quarter'; got 'fortnight'")
 
 
 def test_event_scores_equal_core_and_sklearn(data):

@@ -105,7 +105,7 @@ def test_dates_from_datetimes_serials_and_iso_text():
 
 
 @pytest.mark.parametrize("bad, what", [("31/03/2024", "the text '31/03/2024'"), (True, "True"),
-                                       (-5.0, "-5.0")])
+                                       (-5.0, "-5.0"), (3e6, "3000000.0")])
 def test_dates_reject_what_is_not_a_date(bad, what):
     with pytest.raises(InputError, match=rf"`dates` must hold dates.*got {what} in row 2"):
         c.dates([dt.date(2024, 1, 1), bad], "dates")
