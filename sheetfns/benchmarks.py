@@ -19,22 +19,23 @@ from typing import Any
 
 import numpy as np
 
-from sheetfns.checks import as_events, as_int, as_series, last_observed
+from sheetfns.checks import as_events, as_int, as_series
 from sheetfns.errors import InputError
 
 __all__ = ["naive", "majority_share", "majority_vote"]
 
 
-def _prepare(y: Any, horizon: Any, train_size: Any, *, events: bool) -> tuple[np.ndarray, int, int,
-                                                                              int | None, np.ndarray]:
-    """Validate the common arguments; return (y, L, horizon, train_size, origin per row)."""
+def _prepare(y: Any, horizon: Any, train_size: Any, *, events: bool) -> tuple[np.ndarray, np.ndarray,
+                                                                              int, int, int | None]:
+    """Validate the common arguments; return (y, observed mask, L, horizon, train_size)."""
     arr = as_events(y, "y") if events else as_series(y, "y")
     n = arr.size
     if n < 2:
         raise InputError(f"`y` must have at least 2 rows; got {n}")
-    last = last_observed(arr)
-    if last < 0:
+    obs = ~np.isnan(arr)
+    if not obs.any():
         raise InputError(f"`y` has no observed values (all {n} rows are blank)")
+    last = n - 1 - int(np.argmax(obs[::-1]))
     n_obs = last + 1
     h = as_int(horizon, "horizon", minimum=1)
     if h > n_obs:
@@ -44,20 +45,36 @@ def _prepare(y: Any, horizon: Any, train_size: Any, *, events: bool) -> tuple[np
         if size > n_obs:
             raise InputError(f"`train_size` must be at most the number of observed rows ({n_obs}); "
                              f"got {size}")
-        if np.isnan(arr[:size]).all():
+        if not obs[:size].any():
             raise InputError(f"`train_size` {size} leaves no observed training rows: rows 1 to {size} "
                              f"of `y` are blank")
-    t = np.arange(n)
-    origin = np.minimum(t - h, last)
-    if size is not None:
-        valid = slice(size, n_obs)
-        origin[valid] = np.minimum(origin[valid], size - 1)
-    return arr, last, h, size, origin
+    return arr, obs, last, h, size
 
 
-def _last_seen(obs: np.ndarray) -> np.ndarray:
-    """For each row p, the most recent observed row at or before p (-1 if none)."""
-    return np.maximum.accumulate(np.where(obs, np.arange(obs.size), -1))
+def _at_origin(per_origin: np.ndarray, h: int, last: int, size: int | None, fill: Any) -> np.ndarray:
+    """Evaluate ``per_origin[o]`` at every target's origin o(t) (module docstring); ``fill`` where
+    o(t) < 0. The origin is t - h except on two runs of rows where it is constant: the frozen
+    validation rows N-1+h <= t <= L (o = N-1) and the future rows t > L + h (o = L). So the result is
+    a shifted copy and two constant runs: slices, no gather."""
+    n = per_origin.size
+    out = np.empty_like(per_origin)
+    out[:h] = fill
+    out[h:] = per_origin[:n - h]
+    if last + h + 1 < n:
+        out[last + h + 1:] = per_origin[last]
+    if size is not None and size - 1 + h <= last:
+        out[size - 1 + h:last + 1] = per_origin[size - 1]
+    return out
+
+
+def _ffill(arr: np.ndarray, obs: np.ndarray) -> np.ndarray:
+    """For each row p, the most recent observed value at or before p (NaN before the first)."""
+    seen = np.cumsum(obs, dtype=_count_type(arr.size))
+    return np.concatenate(([np.nan], arr[obs]))[seen]
+
+
+def _count_type(n: int) -> type:
+    return np.int32 if n < 2**31 - 1 else np.int64
 
 
 def naive(y: Any, horizon: int = 1, season: int = 1, train_size: int | None = None) -> np.ndarray:
@@ -101,39 +118,45 @@ def naive(y: Any, horizon: int = 1, season: int = 1, train_size: int | None = No
     >>> naive([1, 0, 0, 1, 1, 0, None, None], season=3)
     array([nan, nan, nan,  1.,  0.,  0.,  1.,  1.])
     """
-    arr, last, h, size, origin = _prepare(y, horizon, train_size, events=False)
+    arr, obs, last, h, size = _prepare(y, horizon, train_size, events=False)
     period = size if size is not None else last + 1
     m = as_int(season, "season", minimum=1)
     if m > period:
         raise InputError(f"`season` must be at most the training period ({period} rows); got {m}")
-    n = arr.size
-    obs = ~np.isnan(arr)
     if m == 1:
-        seen = _last_seen(obs)
-        src = np.where(origin >= 0, seen[np.maximum(origin, 0)], -1)
-    else:
-        rows = -(-n // m)
-        grid = np.full(rows * m, -1, dtype=np.int64)
-        grid[:n] = np.where(obs, np.arange(n), -1)
-        seen = np.maximum.accumulate(grid.reshape(rows, m), axis=0).reshape(-1)
-        t = np.arange(n)
-        p = origin - (origin - t) % m            # the latest row <= origin in the target's season
-        src = np.where(p >= 0, seen[np.maximum(p, 0)], -1)
-    return np.where(src >= 0, arr[np.maximum(src, 0)], np.nan)
+        return _at_origin(_ffill(arr, obs), h, last, size, np.nan)
+    # ffill within each season: row p -> the latest observed row <= p with the same p mod m
+    n = arr.size
+    rows = -(-n // m)
+    grid = np.full(rows * m, -1, dtype=_count_type(n))
+    grid[:n][obs] = np.flatnonzero(obs)
+    seen = np.maximum.accumulate(grid.reshape(rows, m), axis=0).reshape(-1)[:n]
+    same_season = np.where(seen >= 0, arr[np.maximum(seen, 0)], np.nan)
+    # with origin t - h the season-mate is row t - k, k = m * ceil(h / m); rows past L carry the last
+    # observed season forward, so the future rows need no special case
+    k = m * -(-h // m)
+    out = np.full(n, np.nan)
+    if k < n:
+        out[k:] = same_season[:n - k]
+    if size is not None and size - 1 + h <= last:            # frozen origin N-1
+        t = np.arange(size - 1 + h, last + 1)
+        out[t] = same_season[(size - 1) - (size - 1 - t) % m]
+    return out
 
 
-def _window_counts(arr: np.ndarray, origin: np.ndarray, window: Any, last: int) -> tuple[np.ndarray,
-                                                                                          np.ndarray]:
-    """Events and observed rows among rows (o - w, o] (all rows <= o when window is None)."""
+def _window_counts(arr: np.ndarray, obs: np.ndarray, window: Any, h: int, last: int,
+                   size: int | None) -> tuple[np.ndarray, np.ndarray]:
+    """Events and observed rows among rows (o(t) - w, o(t)] (all rows <= o(t) when window is None)."""
     w = as_int(window, "window", minimum=1, allow_none=True)
     if w is not None and w > last + 1:
         raise InputError(f"`window` must be at most the number of observed rows ({last + 1}); got {w}")
-    obs = ~np.isnan(arr)
-    ev_cs = np.concatenate(([0], np.cumsum(obs & (arr == 1.0), dtype=np.int64)))
-    ob_cs = np.concatenate(([0], np.cumsum(obs, dtype=np.int64)))
-    hi = np.maximum(origin + 1, 0)               # rows < hi; hi = 0 means no row
-    lo = np.zeros_like(hi) if w is None else np.maximum(hi - w, 0)
-    return ev_cs[hi] - ev_cs[lo], ob_cs[hi] - ob_cs[lo]
+    kind = _count_type(arr.size)
+    ev = np.cumsum(arr == 1.0, dtype=kind)                    # NaN == 1.0 is False
+    ob = np.cumsum(obs, dtype=kind)
+    if w is not None and w < arr.size:
+        ev[w:] -= ev[:-w].copy()
+        ob[w:] -= ob[:-w].copy()
+    return _at_origin(ev, h, last, size, 0), _at_origin(ob, h, last, size, 0)
 
 
 def majority_share(y: Any, window: int | None = None, train_size: int | None = None,
@@ -165,10 +188,10 @@ def majority_share(y: Any, window: int | None = None, train_size: int | None = N
     >>> majority_share([1, 0, 0, 1, None, None]).round(3)
     array([  nan, 1.   , 0.5  , 0.333, 0.5  , 0.5  ])
     """
-    arr, last, _, _, origin = _prepare(y, horizon, train_size, events=True)
-    ev, ob = _window_counts(arr, origin, window, last)
+    arr, obs, last, h, size = _prepare(y, horizon, train_size, events=True)
+    ev, ob = _window_counts(arr, obs, window, h, last, size)
     with np.errstate(invalid="ignore", divide="ignore"):
-        return np.where(ob > 0, ev / np.maximum(ob, 1), np.nan)
+        return ev / ob                                        # 0 / 0 -> NaN: no observed row
 
 
 def majority_vote(y: Any, window: int | None = None, train_size: int | None = None,
@@ -195,9 +218,12 @@ def majority_vote(y: Any, window: int | None = None, train_size: int | None = No
     >>> majority_vote([1, 0, 0, 1, None, None])
     array([nan,  1.,  0.,  0.,  1.,  1.])
     """
-    arr, last, _, _, origin = _prepare(y, horizon, train_size, events=True)
-    ev, ob = _window_counts(arr, origin, window, last)
-    seen = _last_seen(~np.isnan(arr))
-    recent = arr[np.maximum(seen[np.maximum(origin, 0)], 0)]    # only read where ob > 0
-    vote = np.where(2 * ev > ob, 1.0, np.where(2 * ev < ob, 0.0, recent))
-    return np.where(ob > 0, vote, np.nan)
+    arr, obs, last, h, size = _prepare(y, horizon, train_size, events=True)
+    ev, ob = _window_counts(arr, obs, window, h, last, size)
+    twice = 2 * ev
+    vote = (twice > ob).astype(float)
+    vote[ob == 0] = np.nan
+    tie = (twice == ob) & (ob > 0)
+    if tie.any():                          # the most recent observed value at or before the origin
+        vote[tie] = _at_origin(_ffill(arr, obs), h, last, size, np.nan)[tie]
+    return vote
