@@ -14,6 +14,8 @@ from sheetfns.errors import InputError
 
 
 def _show(value: Any) -> str:
+    if isinstance(value, np.generic):
+        value = value.item()
     text = repr(value)
     return text if len(text) <= 60 else text[:57] + "..."
 
