@@ -1,0 +1,392 @@
+"""One refresh of one workbook: read the job table and the data, compute every job, write tocsin's
+sheets in one atomic package write, and report what happened.
+
+* The inputs of every job (its row of the job table, the data columns it reads, the tocsin version)
+  are fingerprinted; the fingerprints are stored in tocsin's own state inside the package. When every
+  job's fingerprint matches and every output sheet is present, nothing is written ("unchanged"), so
+  refreshing twice is a no-op and tocsin's own write never triggers another one.
+* A job that fails (a bad setting, data that do not allow a forecast) gets its forecast sheet with
+  the error in the status line; the other jobs go on.
+* The file is written only if it is still the bytes that were read (``ConcurrentEditError`` ->
+  status "conflict": someone saved meanwhile; the watcher retries).
+"""
+from __future__ import annotations
+
+import dataclasses
+import datetime as dt
+import hashlib
+import json
+import math
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from sheetfns.errors import ConcurrentEditError, JobError, PackageError, TocsinError
+
+VERSION = "0.1.0"
+Progress = Callable[[str], None] | None
+
+
+@dataclass(frozen=True)
+class JobReport:
+    """The outcome of one job."""
+
+    name: str
+    status: str  # "ok", "failed" or "unchanged"
+    message: str = ""
+    next_forecast: float | None = None  # probability of the event in the next period (best method)
+    next_period: str | None = None
+    best_method: str | None = None
+    sheet: str | None = None
+    evaluation: Any = field(default=None, repr=False, compare=False)
+
+
+@dataclass(frozen=True)
+class RefreshReport:
+    """The outcome of one workbook's refresh."""
+
+    path: Path
+    status: str  # "refreshed", "unchanged", "failed", "conflict", "busy"
+    jobs: tuple[JobReport, ...] = ()
+    message: str = ""
+    duration_s: float = 0.0
+
+    @property
+    def ok(self) -> bool:
+        return self.status in ("refreshed", "unchanged") and all(j.status != "failed" for j in self.jobs)
+
+
+# ----------------------------------------------------------------------------------------- computing
+
+@dataclass(frozen=True)
+class JobOutcome:
+    """A computed (or failed) job, ready to be laid out."""
+
+    job: Any  # jobs.Job or None when the row did not validate
+    name: str
+    sheet: str
+    profile_sheet: str
+    fingerprint: str
+    error: str | None = None
+    evaluation: Any = None
+    data: Any = None
+    events: Any = None
+    values: Any = None
+    profile: Any = None
+    trend: Any = None
+    notes: tuple[str, ...] = ()
+
+
+def _digest(job_settings: Any, data: Any) -> str:
+    h = hashlib.sha256()
+    h.update(VERSION.encode())
+    h.update(json.dumps(job_settings, default=str, sort_keys=True).encode())
+    if data is not None:
+        for key in sorted(data.columns):
+            h.update(key.encode())
+            h.update(np.ascontiguousarray(data.columns[key]).tobytes())
+        for key in sorted(data.raw):
+            h.update(("raw:" + key).encode())
+            h.update(repr(data.raw[key].tolist()).encode())
+        if data.dates is not None:
+            h.update(np.ascontiguousarray(data.dates.astype("datetime64[s]")).tobytes())
+    return h.hexdigest()[:32]
+
+
+def _settings_for(job: Any):
+    from sheetfns.scorecard import Settings
+
+    return Settings(horizon=job.horizon, season=job.season or 1, cycle=job.cycle,
+                    harmonics=job.harmonics, lags=job.lags, refit=job.refit, cutoff=job.cutoff,
+                    cost_false_alarm=job.cost_false_alarm, cost_miss=job.cost_miss,
+                    weekday=job.frequency == "daily")
+
+
+def compute_job(job: Any, data: Any) -> JobOutcome:
+    """Resolve ``job`` against its data and run every method. Raises TocsinError on bad data."""
+    from sheetfns import profile
+    from sheetfns.events import flag
+    from sheetfns.scorecard import evaluate
+    from watcher import jobs as jobs_mod
+
+    job = jobs_mod.resolve(job, data)
+    raw = data.raw[job.value_column] if job.text_columns else data.columns[job.value_column]
+    events = flag(raw, job.criterion, job.min_run)
+    values = data.columns.get(job.value_column)
+    use_values = None
+    if values is not None:
+        obs = values[~np.isnan(values)]
+        if obs.size and not np.isin(obs, (0.0, 1.0)).all():
+            use_values = values  # a 0/1 column would enter the model twice (as events and values)
+    predictors = {data.names.get(p, p): data.columns[p] for p in job.predictors} or None
+    known = {data.names.get(p, p): data.columns[p] for p in job.known_ahead} or None
+    ev = evaluate(events, train_size=job.train_size, settings=_settings_for(job), dates=data.dates,
+                  values=use_values, predictors=predictors, known_ahead=known)
+    table = trend = None
+    if data.dates is not None:
+        by = {"quarterly": "quarter", "weekly": "month"}.get(job.frequency or "", "month")
+        table = profile.rate_table(data.dates, events, by=by)
+        try:
+            trend = profile.seasonal_trend(table, degree=2)
+        except TocsinError:
+            trend = None
+    return JobOutcome(job=job, name=job.name, sheet=job.output_sheet, profile_sheet=job.profile_sheet,
+                      fingerprint="", evaluation=ev, data=data, events=events,
+                      values=values if values is not None else events, profile=table, trend=trend,
+                      notes=tuple(data.warnings))
+
+
+def _event_text(job: Any, data: Any) -> str:
+    name = data.names.get(job.value_column, job.value_column) if data is not None else job.value_column
+    run = f", held {job.min_run} periods in a row" if job.min_run > 1 else ""
+    return f"{name} {job.event}{run}"
+
+
+# ----------------------------------------------------------------------------------------- the sheets
+
+def _sheets_for(outcome: JobOutcome, refreshed_at: dt.datetime) -> list[Any]:
+    from watcher import layout
+
+    job, data = outcome.job, outcome.data
+    ctx = layout.SheetContext(
+        job=outcome.name, sheet=outcome.sheet, profile_sheet=outcome.profile_sheet,
+        data_sheet=job.data_sheet if job is not None else "?",
+        value_name=(data.names.get(job.value_column, job.value_column) if data is not None and job
+                    else "value"),
+        event_text=_event_text(job, data) if job is not None else "",
+        horizon=job.horizon if job is not None else 1, refreshed_at=refreshed_at, notes=outcome.notes)
+    if outcome.error is not None:
+        return [layout.failed_sheet(ctx, outcome.error)]
+    sheets = [layout.forecast_sheet(ctx, outcome.evaluation, dates=data.dates, values=outcome.values,
+                                    events=outcome.events)]
+    if outcome.profile is not None:
+        sheets.append(layout.profile_sheet(ctx, outcome.profile, outcome.trend, outcome.evaluation))
+    return sheets
+
+
+def _job_report(o: JobOutcome, status: str | None = None) -> JobReport:
+    from sheetfns.scorecard import METHOD_LABELS
+
+    if o.error is not None:
+        return JobReport(o.name, "failed", o.error, sheet=o.sheet)
+    ev = o.evaluation
+    nxt = None
+    best = ev.best
+    if best is not None and ev.last_observed + 1 < ev.n:
+        p = ev.headline()[best][1]
+        nxt = None if math.isnan(p) else p
+    period = None
+    if ev.last_observed + 1 < ev.n:
+        d = o.data.dates
+        period = (str(d[ev.last_observed + 1].astype("datetime64[D]")) if d is not None
+                  else f"row {ev.last_observed + 2}")
+    return JobReport(o.name, status or "ok", ev.verdict, next_forecast=nxt, next_period=period,
+                     best_method=METHOD_LABELS.get(best) if best else None, sheet=o.sheet, evaluation=ev)
+
+
+def evaluate_book(path: Path, progress: Progress = None) -> tuple[Any, list[JobOutcome]]:
+    """Read the job table and compute every job (nothing is written). Returns (job table, outcomes)."""
+    from watcher import jobs as jobs_mod
+    from watcher.reader import Book
+
+    outcomes: list[JobOutcome] = []
+    with Book(path) as book:
+        table = jobs_mod.read_job_table(book)
+        for err_row, errs in table.failed().items():
+            name = next((e.job for e in errs if e.job), None)
+            if name is None:
+                continue
+            sheet, prof = jobs_mod.output_names(name)
+            msg = "; ".join(e.message for e in errs)
+            outcomes.append(JobOutcome(None, name, sheet, prof, _digest(["error", msg], None), error=msg))
+        for i, job in enumerate(table.jobs, 1):
+            if progress:
+                progress(f"{path.name}: job {i}/{len(table.jobs)} '{job.name}'")
+            try:
+                data = book.read(job.data_sheet, job.columns, date_column=job.date_column,
+                                 text_columns=job.text_columns)
+            except TocsinError as exc:
+                outcomes.append(JobOutcome(job, job.name, job.output_sheet, job.profile_sheet,
+                                           _digest(dict(job.settings), None), error=str(exc)))
+                continue
+            fp = _digest(dict(job.settings), data)
+            try:
+                outcome = compute_job(job, data)
+            except TocsinError as exc:
+                outcomes.append(JobOutcome(job, job.name, job.output_sheet, job.profile_sheet, fp,
+                                           error=str(exc), data=data))
+                continue
+            outcomes.append(dataclasses.replace(outcome, fingerprint=fp))
+    return table, outcomes
+
+
+def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progress = None) -> RefreshReport:
+    """Refresh every job of the workbook at ``path``; never raises for a bad workbook or job.
+
+    Statuses: "refreshed" (written), "unchanged" (inputs as at the last refresh; nothing written),
+    "failed" (the workbook could not be read or written; ``message`` says why), "conflict" (the file
+    changed while computing; nothing written), "busy" (open in a spreadsheet program).
+    """
+    from watcher import package
+
+    path = Path(path)
+    start = time.monotonic()
+
+    def done(status: str, jobs: tuple[JobReport, ...] = (), message: str = "") -> RefreshReport:
+        return RefreshReport(path, status, jobs, message, time.monotonic() - start)
+
+    owner = owner_file(path)
+    if owner is not None:
+        return done("busy", message=f"open in a spreadsheet program ({owner.name} present); "
+                                    "left alone until it is closed")
+    try:
+        pkg = package.Package.open(path)
+        table, outcomes = evaluate_book(path, progress)
+    except (TocsinError, OSError) as exc:
+        return done("failed", message=_message(exc))
+    state = dict(pkg.state or {})
+    old = state.get("jobs", {})
+    new = {o.name: {"fingerprint": o.fingerprint, "sheets": _names(o)} for o in outcomes}
+    owned = {s.casefold() for s in pkg.owned_sheets}
+    present = all(s.casefold() in owned for o in outcomes for s in _names(o))
+    if not force and old == new and present:
+        reports = tuple(_job_report(o, "unchanged") for o in outcomes)
+        return done("unchanged", reports, "inputs unchanged since the last refresh")
+    refreshed_at = dt.datetime.now().replace(microsecond=0)
+    sheets: list[Any] = []
+    for o in outcomes:
+        try:
+            sheets.extend(_sheets_for(o, refreshed_at))
+        except TocsinError as exc:  # a layout problem of one job must not stop the others
+            o = dataclasses.replace(o, error=f"could not lay out the sheet: {exc}")
+            sheets.extend(_sheets_for(o, refreshed_at))
+    wanted = {s.name.casefold() for s in sheets}
+    disabled = {d.name for d in table.disabled if d.name}
+    keep = {s.casefold() for name in disabled for s in old.get(name, {}).get("sheets", [])}
+    remove = [s for s in pkg.owned_sheets if s.casefold() not in wanted and s.casefold() not in keep]
+    for name in disabled:
+        if name in old:
+            new[name] = old[name]
+    state["jobs"] = new
+    state["version"] = VERSION
+    try:
+        package.write(path, sheets, state=state, remove=remove, expect=pkg.fingerprint)
+    except ConcurrentEditError as exc:
+        return done("conflict", message=str(exc))
+    except (TocsinError, OSError) as exc:
+        return done("failed", tuple(_job_report(o) for o in outcomes), _message(exc))
+    reports = tuple(_job_report(o) for o in outcomes)
+    msg = "; ".join(e.message for e in table.errors if not e.job) or ""
+    return done("refreshed", reports, msg)
+
+
+def _names(o: JobOutcome) -> list[str]:
+    if o.error is not None:
+        return [o.sheet]
+    return [o.sheet] + ([o.profile_sheet] if o.profile is not None else [])
+
+
+def _message(exc: BaseException) -> str:
+    if isinstance(exc, FileNotFoundError):
+        return f"{exc.filename}: no such file"
+    if isinstance(exc, OSError):
+        return f"{exc.filename or ''}: {exc.strerror or exc}".lstrip(": ")
+    return str(exc)
+
+
+def owner_file(path: Path) -> Path | None:
+    """The lock file a spreadsheet program keeps beside an open workbook, if present:
+    ``~$name.xlsx`` (one family of programs; the name may lose its first characters) or
+    ``.~lock.name.xlsx#`` (LibreOffice)."""
+    folder = path.parent
+    for cand in (folder / f"~${path.name}", folder / f"~${path.name[2:]}", folder / f".~lock.{path.name}#"):
+        if cand.exists():
+            return cand
+    return None
+
+
+# ----------------------------------------------------------------------------------------- check
+
+@dataclass(frozen=True)
+class CheckResult:
+    path: Path
+    table: Any = None
+    outcomes: tuple[JobOutcome, ...] = ()
+    problems: tuple[str, ...] = ()
+    error: str | None = None
+
+    @property
+    def ok(self) -> bool:
+        return (self.error is None and not self.problems and self.table is not None
+                and not self.table.errors and all(o.error is None for o in self.outcomes))
+
+
+def check_workbook(path: Path | str, *, progress: Progress = None) -> CheckResult:
+    """Validate the job table and compute every job's scorecard; write nothing."""
+    from watcher import package
+
+    path = Path(path)
+    try:
+        problems = tuple(package.validate(path))
+        table, outcomes = evaluate_book(path, progress)
+    except (TocsinError, OSError) as exc:
+        return CheckResult(path, error=_message(exc))
+    return CheckResult(path, table, tuple(outcomes), problems)
+
+
+# ----------------------------------------------------------------------------------------- init
+
+def init_workbook(path: Path | str, *, sheet: str, value: str, event: str, date: str | None = None,
+                  job: str | None = None) -> str:
+    """Add a job table with one job to the workbook; return the job's name. Refuses when the
+    workbook already has a sheet named 'tocsin'."""
+    from sheetfns.events import parse_criterion
+    from watcher import jobs as jobs_mod
+    from watcher import package
+    from watcher.reader import Book
+    from watcher.sheetspec import Cells, SheetSpec
+
+    path = Path(path)
+    parse_criterion(event)
+    pkg = package.Package.open(path)
+    if any(s.casefold() == jobs_mod.TABLE_SHEET for s in pkg.sheet_names):
+        raise JobError(f"{path.name} already has a job table (sheet {jobs_mod.TABLE_SHEET!r}); edit it "
+                       "to add jobs")
+    with Book(path) as book:
+        data_sheet = book.resolve_sheet(sheet)
+        header = book.header(data_sheet)
+        header.find(value, what="--value")
+        if date is None:
+            date = guess_date_column(book, data_sheet, header)
+        elif date:
+            header.find(date, what="--date")
+    name = job or f"{value} {event}".strip()
+    rows = jobs_mod.job_table_rows([{"job": name, "data_sheet": data_sheet, "date_column": date,
+                                     "value_column": value, "event": event}])
+    cells = tuple(tuple((v, "header" if i == 0 else "text" if isinstance(v, str) else "general")
+                        for v in row) for i, row in enumerate(rows))
+    spec = SheetSpec(jobs_mod.TABLE_SHEET, (Cells(0, 0, cells),), col_widths={0: 24, 1: 16, 3: 16, 4: 12})
+    package.write(path, [spec], state=pkg.state, expect=pkg.fingerprint, owned=False)
+    return name
+
+
+def guess_date_column(book: Any, sheet: str, header: Any) -> str | None:
+    """The first column whose header says 'date' / 'day' / 'week' / 'month', else the first column
+    holding dates."""
+    for text in header.texts:
+        if text and text.strip().casefold() in ("date", "day", "week", "month", "period", "time"):
+            return text
+    for text in header.texts:
+        if not text:
+            continue
+        try:
+            data = book.read(sheet, [], date_column=text)
+        except TocsinError:
+            continue
+        if data.dates is not None and data.nrows and (data.dates == data.dates).mean() > 0.9:
+            return text
+    return None

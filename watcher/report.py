@@ -1,0 +1,100 @@
+"""What the ``tocsin`` command prints: one line per job, scorecards as terminal tables, JSON reports."""
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from sheetfns.scorecard import SCORE_ROWS
+
+
+def _pct(p: float | None) -> str:
+    return "-" if p is None or (isinstance(p, float) and math.isnan(p)) else f"{p:.0%}"
+
+
+def refresh_text(rep: Any) -> str:
+    """One line for the workbook, then one line per job."""
+    head = f"{rep.path.name}: {rep.status}" + (f" ({rep.message})" if rep.message else "") + \
+        f" in {rep.duration_s:.1f} s"
+    lines = [head]
+    for j in rep.jobs:
+        if j.status == "failed":
+            lines.append(f"  {j.name}: FAILED: {j.message}")
+            continue
+        nxt = (f"next period {j.next_period}: {_pct(j.next_forecast)} chance of the event"
+               if j.next_period else "no future period in the data")
+        lines.append(f"  {j.name}: {j.status}; {nxt} (best by Brier: {j.best_method or '-'})")
+    return "\n".join(lines)
+
+
+def refresh_dict(rep: Any) -> dict[str, Any]:
+    """A machine-readable report for scheduled runs."""
+    def clean(x: Any) -> Any:
+        return None if isinstance(x, float) and math.isnan(x) else x
+
+    return {
+        "workbook": str(rep.path),
+        "status": rep.status,
+        "ok": rep.ok,
+        "message": rep.message,
+        "duration_s": round(rep.duration_s, 3),
+        "jobs": [{"job": j.name, "status": j.status, "message": j.message, "sheet": j.sheet,
+                  "next_period": j.next_period, "next_probability": clean(j.next_forecast),
+                  "best_method": j.best_method} for j in rep.jobs],
+    }
+
+
+def _cell(v: float, fmt: str) -> str:
+    if v is None or (isinstance(v, float) and math.isnan(v)):
+        return "-"
+    if fmt == "integer":
+        return f"{v:.0f}"
+    if fmt == "percent":
+        return f"{v:.1%}"
+    return f"{v:.3f}"
+
+
+def scorecard_text(ev: Any) -> str:
+    """The validation scorecard as a fixed-width table (methods as columns; * marks the best)."""
+    labels = [m.label for m in ev.methods]
+    width = max(10, *(len(x) for x in labels)) + 1
+    first = max(len(label) for _, label, _, _ in SCORE_ROWS) + 2
+    out = ["".ljust(first) + "".join(x.rjust(width) for x in labels)]
+    for key, label, fmt, better in SCORE_ROWS:
+        vals = [ev.scorecard[m.key].get(key, math.nan) for m in ev.methods]
+        finite = [v for v in vals if not math.isnan(v)]
+        best = (max(finite) if better == "hi" else min(finite)) if better and finite else None
+        cells = [(_cell(v, fmt) + ("*" if best is not None and v == best else " ")).rjust(width)
+                 for v in vals]
+        out.append(label.ljust(first) + "".join(cells))
+    return "\n".join(out)
+
+
+def check_text(result: Any) -> str:
+    """The report of ``tocsin check``."""
+    name = result.path.name
+    if result.error:
+        return f"{name}: error: {result.error}"
+    lines = []
+    for p in result.problems:
+        lines.append(f"{name}: package problem: {p}")
+    table = result.table
+    for e in table.errors:
+        lines.append(f"{name}: error: {e.message}")
+    for d in table.disabled:
+        lines.append(f"{name}: job {d.name!r} (row {d.row}) is disabled")
+    for o in result.outcomes:
+        if o.job is None:
+            continue
+        if o.error:
+            lines.append(f"{name}: job {o.name!r}: error: {o.error}")
+            continue
+        ev = o.evaluation
+        lines.append("")
+        lines.append(f"== {o.name} ({ev.train_size} training, {ev.last_observed + 1 - ev.train_size} "
+                     f"validation, {ev.n - ev.last_observed - 1} future rows)")
+        lines.append(scorecard_text(ev))
+        lines.append(ev.verdict)
+    status = "ok" if result.ok else "problems found"
+    lines.append("")
+    lines.append(f"{name}: {status}")
+    return "\n".join(lines)
