@@ -12,7 +12,9 @@ factorisation, so columns of very different scale (a trend in the thousands besi
 cost accuracy; a matrix that is not positive definite falls back to least squares.
 
 Convergence: the largest change of any fitted linear predictor ``|x_i' d|`` in the last step is below
-``tol``. Newton converges quadratically, so the error left after that step is of order ``tol**2``.
+``tol``. Newton converges quadratically (measured here: a change of 6.6e-4 is followed by one of
+4.3e-8), so the error left after that step is of order ``0.1 tol**2``; a final Newton correction from
+the gradient and Hessian already computed at that point squares it again at no cost.
 Unlike a test on the log-likelihood, this test does not mistake the slow flattening of a separated
 likelihood for convergence: there the linear predictors keep growing by O(1) per step.
 """
@@ -74,8 +76,14 @@ def solve_spd(h: np.ndarray, g: np.ndarray) -> np.ndarray:
     For the warm-started refits, whose windows are known to be of full rank; a non-finite result
     tells the caller to fall back to :func:`solve_pd`'s checks.
     """
-    s = 1.0 / np.sqrt(np.diag(h))
-    return s * np.linalg.solve(h * np.outer(s, s), g * s)
+    diag = np.diag(h)
+    if not np.all(diag > 0.0):
+        return np.full(g.shape, np.nan)
+    s = 1.0 / np.sqrt(diag)
+    try:
+        return s * np.linalg.solve(h * np.outer(s, s), g * s)
+    except np.linalg.LinAlgError:
+        return np.full(g.shape, np.nan)
 
 
 def inverse_pd(h: np.ndarray) -> np.ndarray:
@@ -93,10 +101,54 @@ def inverse_pd(h: np.ndarray) -> np.ndarray:
     return np.full((k, k), np.nan)
 
 
+#: Rows per block of a pass over the data. Blocks of 8192 x k doubles stay in cache and keep BLAS
+#: on one thread, which on a busy two-core machine measured 3-4x faster than whole-array operations
+#: for a million rows.
+CHUNK = 8192
+
+
 def hessian(x: np.ndarray, w: np.ndarray) -> np.ndarray:
     """X' diag(w) X, computed as (sqrt(w) X)' (sqrt(w) X) so BLAS can use the symmetric kernel."""
     xw = x * np.sqrt(w)[:, None]
     return xw.T @ xw
+
+
+def crossprod(x: np.ndarray) -> np.ndarray:
+    """X' X, block by block."""
+    k = x.shape[1]
+    out = np.zeros((k, k))
+    for s in range(0, x.shape[0], CHUNK):
+        xc = x[s:s + CHUNK]
+        out += xc.T @ xc
+    return out
+
+
+def evaluate(x: np.ndarray, y: np.ndarray, b: np.ndarray, *, need_llf: bool = True
+             ) -> tuple[float, np.ndarray, np.ndarray, np.ndarray]:
+    """One pass over the data at ``b``: log-likelihood, gradient X'(y - p), X'WX and ``eta = X b``.
+
+    With ``e = exp(-|eta|)``: ``p = 1 / (1 + e)`` or ``e / (1 + e)`` by the sign of eta,
+    ``w = p (1 - p) = e / (1 + e)**2`` and ``log(1 + exp(eta)) = max(eta, 0) + log1p(e)``, all free
+    of overflow and of cancellation for large |eta|.
+    """
+    n, k = x.shape
+    g = np.zeros(k)
+    h = np.zeros((k, k))
+    eta = np.empty(n)
+    llf = 0.0
+    for s in range(0, n, CHUNK):
+        xc, yc = x[s:s + CHUNK], y[s:s + CHUNK]
+        ec = xc @ b
+        eta[s:s + CHUNK] = ec
+        e = np.exp(-np.abs(ec))
+        inv = 1.0 / (1.0 + e)
+        p = np.where(ec >= 0.0, inv, e * inv)
+        if need_llf:
+            llf += float(yc @ ec) - float(np.maximum(ec, 0.0).sum()) - float(np.log1p(e).sum())
+        g += xc.T @ (yc - p)
+        xw = xc * (np.sqrt(e) * inv)[:, None]
+        h += xw.T @ xw
+    return llf, g, h, eta
 
 
 def saturated(y: np.ndarray, eta: np.ndarray) -> bool:
@@ -105,7 +157,7 @@ def saturated(y: np.ndarray, eta: np.ndarray) -> bool:
 
 
 def newton(x: np.ndarray, y: np.ndarray, start: np.ndarray, *, penalty: np.ndarray | None = None,
-           tol: float = 1e-8, maxiter: int = 50, need_hessian: bool = True,
+           tol: float = 1e-6, maxiter: int = 50, need_hessian: bool = True,
            watch_separation: bool = True) -> NewtonResult:
     """Maximise the (optionally ridge-penalised) logit log-likelihood from ``start``.
 
@@ -120,65 +172,66 @@ def newton(x: np.ndarray, y: np.ndarray, start: np.ndarray, *, penalty: np.ndarr
     penalty : ndarray, shape (k,), optional
         Diagonal of the ridge penalty ``P``: the objective is ``llf - b' P b / 2``.
     tol : float
-        Convergence when the last step changed no fitted linear predictor by ``tol`` or more.
+        Convergence when the last step changed no fitted linear predictor by ``tol`` or more; a final
+        correction step (no extra pass) follows.
     maxiter : int
         Most Newton steps.
     need_hessian : bool
-        Evaluate ``X'WX (+P)`` at the final estimate (for standard errors). Without it the loop ends
-        right after the converging step, saving one pass over the data.
+        Return ``X'WX (+P)`` at the final estimate (for standard errors). Each pass computes it
+        anyway, so the estimate it belongs to needs no further pass.
     watch_separation : bool
-        Stop early, flagged ``diverging``, when after 8 steps some rows are fitted perfectly while the
-        linear predictors still move by more than 1e-3 (the signature of separation).
+        Flag ``diverging`` (separation) when some row is fitted perfectly (|eta| > SATURATED_ETA on
+        the side of its outcome) at the end, and stop early when after 8 steps that happens while the
+        linear predictors still move by more than 1e-3.
     """
     b = np.array(start, dtype=float)
-    eta = x @ b
     pen = penalty
-    llf = loglik(y, eta)
-    obj = llf if pen is None else llf - 0.5 * float(pen @ (b * b))
-    converged = False
-    diverging = False
-    h = None
+
+    def objective(llf: float, bb: np.ndarray) -> float:
+        return llf if pen is None else llf - 0.5 * float(pen @ (bb * bb))
+
+    llf, g, h, eta = evaluate(x, y, b)
+    obj = objective(llf, b)
+    converged = diverging = False
     it = 0
-    for it in range(1, maxiter + 1):  # noqa: B007 - the count is reported
-        p = expit(eta)
-        h = hessian(x, p - p * p)
-        g = x.T @ (y - p)
-        if pen is not None:
-            h[np.diag_indices_from(h)] += pen
-            g -= pen * b
-        d = solve_pd(h, g)
+    while it < maxiter:
+        d = solve_pd(h, g) if pen is None else solve_pd(h + np.diag(pen), g - pen * b)
         if not np.all(np.isfinite(d)):
             break
         step = 1.0
         for _ in range(40):
             b_new = b + step * d
-            eta_new = x @ b_new
-            llf_new = loglik(y, eta_new)
-            obj_new = llf_new if pen is None else llf_new - 0.5 * float(pen @ (b_new * b_new))
-            if obj_new >= obj - 1e-12 * (1.0 + abs(obj)):
+            llf_n, g_n, h_n, eta_n = evaluate(x, y, b_new)
+            obj_n = objective(llf_n, b_new)
+            if obj_n >= obj - 1e-12 * (1.0 + abs(obj)):
                 break
             step *= 0.5
         else:
-            # no step raises the objective: we sit at its numerical maximum
-            converged = True
+            converged = True  # no step raises the objective: we sit at its numerical maximum
             break
-        change = float(np.max(np.abs(eta_new - eta))) if eta.size else 0.0
-        b, eta, llf, obj = b_new, eta_new, llf_new, obj_new
-        h = None
+        change = float(np.max(np.abs(eta_n - eta))) if eta.size else 0.0
+        b, llf, g, h, eta, obj = b_new, llf_n, g_n, h_n, eta_n, obj_n
+        it += 1
         if change < tol:
             converged = True
+            # One more Newton step from the gradient and Hessian this pass already computed: it
+            # costs no pass and leaves an error of order (C tol**2)**2. llf and the Hessian stay
+            # those of b, which differ from the final point's by second-order amounts.
+            dd = solve_pd(h, g) if pen is None else solve_pd(h + np.diag(pen), g - pen * b)
+            if np.all(np.isfinite(dd)):
+                b = b + dd
             break
         if watch_separation and it >= 8 and change > 1e-3 and saturated(y, eta):
             diverging = True
             break
-    if not converged and not diverging and watch_separation and saturated(y, eta):
+    if not diverging and watch_separation and saturated(y, eta):
+        # Also after "convergence": a first step can throw a lone separated row far out, where its
+        # weight underflows, the Hessian turns singular and the steps vanish. A finite maximum with
+        # a row fitted to within 1e-11 of its outcome is, in practice, separation.
         diverging = True
-    if need_hessian and converged and h is None:
-        p = expit(eta)
-        h = hessian(x, p - p * p)
-        if pen is not None:
-            h[np.diag_indices_from(h)] += pen
-    return NewtonResult(b, llf, converged, it, h if need_hessian else None, diverging)
+    if pen is not None:
+        h = h + np.diag(pen)
+    return NewtonResult(b, llf, converged, it, h if need_hessian and converged else None, diverging)
 
 
 def independent_columns(x: np.ndarray) -> np.ndarray:
@@ -188,7 +241,7 @@ def independent_columns(x: np.ndarray) -> np.ndarray:
     earlier columns is below ``COLLINEAR_TOL`` times its own sum of squares (an all-zero column
     included). Uses only the k x k cross-product matrix.
     """
-    g = x.T @ x
+    g = crossprod(x)
     k = g.shape[0]
     keep = np.zeros(k, dtype=bool)
     for j in range(k):

@@ -23,7 +23,6 @@ from sheetfns import _irls
 from sheetfns._design import Design
 from sheetfns.errors import InputError
 from sheetfns.logistic import (
-    _ROLL_TOL,
     _TOL,
     LogitFit,
     LogitForecast,
@@ -54,6 +53,7 @@ class _Roller:
         self.counts: Counter[str] = Counter()
         self.point: tuple[np.ndarray, np.ndarray, np.ndarray, int] | None = None
         self.colmax: np.ndarray | None = None
+        self.colmax_m = 0
 
     def get(self, m: int, *, need_cov: bool = False) -> LogitFit:
         f = self.cache.get(m)
@@ -62,7 +62,7 @@ class _Roller:
         f = self._warm(m) if self.clean and not need_cov and self.b is not None else None
         if f is None:
             f = fit_complete(self.xe[:m], self.ye[:m], self.terms, start=self.b,
-                             tol=_TOL if need_cov else _ROLL_TOL, need_cov=need_cov)
+                             tol=_TOL, need_cov=need_cov)
             self.counts["checked"] += 1
             if f.fallback is not None:
                 self.counts["fallback"] += 1
@@ -89,8 +89,12 @@ class _Roller:
         convergence bounds the largest change of a fitted linear predictor by sum_j |d_j| max|x_j|.
         """
         xe, ye = self.xe, self.ye
-        if self.colmax is None:
-            self.colmax = np.max(np.abs(xe), axis=0) if xe.size else np.zeros(xe.shape[1])
+        # max |x_j| over the window only (kept up to date row block by row block): taking it over
+        # all rows would let later rows steer the stopping test, a (tiny) look-ahead
+        if self.colmax_m < m:
+            block = np.max(np.abs(xe[self.colmax_m:m]), axis=0)
+            self.colmax = block if self.colmax is None else np.maximum(self.colmax, block)
+            self.colmax_m = m
         b = self.b
         steps = 0
         if self.point is not None and self.point[3] <= m:
@@ -105,16 +109,20 @@ class _Roller:
             steps = 1
         x, y = xe[:m], ye[:m]
         for _ in range(maxiter):
-            p = _irls.expit(x @ b)
-            g = x.T @ (y - p)
-            h = _irls.hessian(x, p - p * p)
+            _, g, h, _ = _irls.evaluate(x, y, b, need_llf=False)
             d = _irls.solve_spd(h, g)
             if not np.all(np.isfinite(d)):
                 return None
             self.point = (b, g, h, m)
+            bound = float(np.abs(d) @ self.colmax)  # type: ignore[operator]
+            if bound > 1.0:
+                # too far for an undamped step (many new rows, or a changed regime): let the
+                # line-searched solve of fit_complete take over
+                self.point = None
+                return None
             b = b + d
             steps += 1
-            if float(np.abs(d) @ self.colmax) < _WARM_TOL:
+            if bound < _WARM_TOL:
                 self.counts["warm"] += 1
                 nan_k = np.full(len(self.terms), np.nan)
                 return LogitFit(b, nan_k, np.nan, True, (), tuple(self.terms), steps, m)

@@ -21,7 +21,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
@@ -37,8 +37,9 @@ __all__ = ["LogitFit", "LogitForecast", "fit", "forecast", "coefficient_table", 
 #: coefficient in standard-deviation units -- small enough to leave well-fitted terms nearly as they
 #: are, large enough to keep separated terms finite.
 RIDGE = 1e-2
-_TOL = 1e-8        # convergence of fit(): largest change of a fitted linear predictor in the last step
-_ROLL_TOL = 1e-7   # the same test for the warm-started refits of forecast(); error left ~ tol**2
+#: Convergence of fit(): the largest change of a fitted linear predictor in the last Newton step. The
+#: error left after that step is ~0.1 tol**2 and a free correction step squares it (see _irls).
+_TOL = 1e-6
 
 
 @dataclass(frozen=True)
@@ -173,8 +174,10 @@ def fit(X: Any, y: Any, add_constant: bool = True, *, start: Any = None,
         Warm start (e.g. the estimate of a neighbouring sample); NaN entries count as 0.
     names : sequence of str, optional
         Labels of the columns of X (default: DataFrame column names, else ``x1``, ``x2``, ...).
-    tol : float, default 1e-8
-        Stop when the last Newton step changed no fitted linear predictor by ``tol`` or more.
+    tol : float, default 1e-6
+        Stop when the last Newton step changed no fitted linear predictor by ``tol`` or more (then
+        one correction step from the gradient and Hessian already at hand, so the estimate is exact
+        to about ``(0.1 tol**2)**2``).
     maxiter : int, default 50
         Most Newton steps.
 
