@@ -269,7 +269,7 @@ def test_copy_in_from_elsewhere(share, tmp_path):
 def test_burst_of_twenty_saves_in_two_seconds_gives_one_refresh_of_the_final_state(share):
     book = share / "bakery.xlsm"
     book.write_bytes(workbook_bytes("v0"))
-    with Rig(share, initial=False, quiet=0.8) as rig:
+    with Rig(share, initial=False, quiet=1.0) as rig:
         for i in range(1, 21):
             save_by_rename(book, f"v{i}")
             time.sleep(0.1)
@@ -480,3 +480,21 @@ def test_bad_paths_are_refused_with_a_clear_message(tmp_path):
         Watcher([notes], refresh=FakeRefresh())
     with pytest.raises(InputError, match="`--poll` must be a number of seconds > 0; got 0"):
         Watcher([tmp_path], refresh=FakeRefresh(), poll=0)
+
+
+def test_workbook_opened_while_queued_behind_another_waits(share):
+    fake = FakeRefresh(compute_s=1.5)
+    first, second = share / "first.xlsx", share / "second.xlsx"
+    with Rig(share, refresh=fake, initial=False) as rig:
+        save_by_rename(first, "a")
+        assert fake.started.wait(10)
+        save_by_rename(second, "b")  # settles while "first" is computing, so it waits in the queue
+        assert wait_for(lambda: rig.watcher._debouncer.pending() == [], timeout=5)
+        assert fake.statuses(second) == []
+        owner = share / ".~lock.second.xlsx#"
+        owner.write_text("someone")  # opened before its turn came
+        assert wait_for(lambda: rig.events("waiting"), timeout=10)
+        assert fake.statuses(second) == []
+        owner.unlink()
+        rig.settle(second)
+        assert fake.refreshed(second) == [digest_of("b")]

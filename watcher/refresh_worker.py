@@ -97,15 +97,23 @@ class RefreshWorker:
         Called on the worker thread after every attempt (log it; resubmit a conflict).
     workers : int
         Number of threads (1: one workbook at a time).
+    still_ready : callable(Path) -> bool, optional
+        Asked just before each refresh (a path may wait in the queue behind others); when it answers
+        False (say, the workbook has been opened meanwhile) the path goes to ``on_deferred`` instead.
+    on_deferred : callable(Path), optional
+        Where a path that is no longer ready goes (back to the debouncer).
     """
 
     def __init__(
-        self, refresh: RefreshFn, *, on_outcome: Callable[[Outcome], None], workers: int = 1
+        self, refresh: RefreshFn, *, on_outcome: Callable[[Outcome], None], workers: int = 1,
+        still_ready: Callable[[Path], bool] | None = None, on_deferred: Callable[[Path], None] | None = None,
     ) -> None:
         if workers < 1:
             raise ValueError(f"`workers` must be at least 1; got {workers!r}")
         self._refresh = refresh
         self._on_outcome = on_outcome
+        self._still_ready = still_ready
+        self._on_deferred = on_deferred
         self._workers = workers
         self._cond = threading.Condition()
         self._queue: deque[Path] = deque()
@@ -190,6 +198,10 @@ class RefreshWorker:
             if path is None:
                 return
             try:
+                if self._still_ready is not None and self._on_deferred is not None \
+                        and not self._still_ready(path):
+                    self._on_deferred(path)
+                    continue
                 outcome = self._attempt(path)
                 try:
                     self._on_outcome(outcome)

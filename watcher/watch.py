@@ -152,9 +152,14 @@ class Watcher:
     def start(self) -> None:
         """Start the worker, the debouncer and the observer; log the startup line; queue the initial pass."""
         refresh = self._refresh if self._refresh is not None else _load_refresh()
-        self._worker = RefreshWorker(refresh, on_outcome=self._outcome, workers=self._workers)
+        probe = self._probe if self._probe is not None else FileProbe()
+        self._worker = RefreshWorker(
+            refresh, on_outcome=self._outcome, workers=self._workers,
+            still_ready=lambda path: probe.owner(path) is None,  # opened while queued? wait again
+            on_deferred=lambda path: self._debouncer.submit(path, delay=0.0) if self._debouncer else None,
+        )
         self._debouncer = Debouncer(
-            self._worker.submit, quiet=self._quiet, probe=self._probe,
+            self._worker.submit, quiet=self._quiet, probe=probe,
             on_waiting=self._waiting, on_resumed=self._resumed, on_rejected=self._rejected,
         )
         self._worker.start()

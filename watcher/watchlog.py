@@ -1,8 +1,9 @@
 """The watcher's log: one human line per event on stderr, and optionally a JSON-lines file.
 
-Every refresh attempt gives one line: local time, status, workbook, jobs, duration (and a line per failed
-job naming it). The JSON-lines file (``--log FILE``) carries the same facts as one object per line, for a
-scheduler or a monitoring script to read::
+Every refresh gives one line: local time, status, workbook, jobs, duration (and a line per failed job
+naming it); an "unchanged" answer (nothing to do) is in the JSON file only. The JSON-lines file
+(``--log FILE``) carries the same facts as one object per line, for a scheduler or a monitoring script
+to read::
 
     {"time": "2026-05-09T10:11:12+02:00", "event": "refresh", "workbook": "/share/ferry.xlsx",
      "status": "refreshed", "duration_s": 0.84, "message": "", "jobs": [{"name": "crowded", ...}]}
@@ -71,13 +72,13 @@ class WatchLog:
                 self._json.close()
                 self._json = None
 
-    def event(self, kind: str, text: str, **fields: Any) -> None:
+    def event(self, kind: str, text: str, *, on_stream: bool = True, **fields: Any) -> None:
         """Log one event: ``text`` on the stream, ``{"time", "event": kind, **fields}`` in the file."""
         now = datetime.now().astimezone()
         record = {"time": now.isoformat(timespec="milliseconds"), "event": kind}
         record.update({k: _plain(v) for k, v in fields.items()})
         with self._lock:
-            if self._stream is not None:
+            if self._stream is not None and on_stream:
                 try:
                     self._stream.write(f"{now:%Y-%m-%d %H:%M:%S}  {text}\n")
                     self._stream.flush()
@@ -88,7 +89,11 @@ class WatchLog:
                 self._json.flush()
 
     def outcome(self, outcome: Outcome) -> None:
-        """Log one refresh attempt (and one extra line per failed job)."""
+        """Log one refresh attempt (and one extra line per failed job).
+
+        "unchanged" (nothing to do; tocsin's own write coming back is one) goes to the JSON file only,
+        so the human log shows what was written or went wrong.
+        """
         jobs = outcome.jobs
         failed = [job for job in jobs if job.status != "ok"]
         if not jobs:
@@ -115,4 +120,4 @@ class WatchLog:
         }
         if outcome.traceback:
             fields["traceback"] = outcome.traceback
-        self.event("refresh", text, **fields)
+        self.event("refresh", text, on_stream=outcome.status != "unchanged", **fields)

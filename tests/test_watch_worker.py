@@ -1,0 +1,199 @@
+"""Unit tests of the watcher's refresh worker and log, with synthetic refresh callables (no disk)."""
+from __future__ import annotations
+
+import io
+import json
+import threading
+import time
+from dataclasses import dataclass
+from pathlib import Path
+
+from sheetfns.errors import PackageError
+from watcher.refresh_worker import Outcome, RefreshWorker
+from watcher.watchlog import WatchLog
+
+A = Path("/share/ferry.xlsx")
+B = Path("/share/bakery.xlsx")
+
+
+def wait_for(predicate, timeout: float = 5.0) -> bool:
+    deadline = time.monotonic() + timeout
+    while not predicate():
+        if time.monotonic() > deadline:
+            return False
+        time.sleep(0.005)
+    return True
+
+
+@dataclass(frozen=True)
+class Job:
+    name: str
+    status: str
+    message: str = ""
+    next_forecast: float | None = None
+    best_method: str | None = None
+
+
+@dataclass(frozen=True)
+class Report:
+    path: Path
+    status: str
+    jobs: tuple = ()
+    message: str = ""
+    duration_s: float = 0.5
+
+
+class Gate:
+    """A refresh that blocks until released, recording who ran and how many ran at once."""
+
+    def __init__(self) -> None:
+        self.release = threading.Event()
+        self.calls: list[Path] = []
+        self.active = 0
+        self.most_active = 0
+        self.lock = threading.Lock()
+
+    def __call__(self, path: Path, *, progress=None) -> Report:
+        with self.lock:
+            self.calls.append(path)
+            self.active += 1
+            self.most_active = max(self.most_active, self.active)
+        try:
+            while not self.release.wait(0.01):
+                if progress is not None:
+                    progress("computing")
+        finally:
+            with self.lock:
+                self.active -= 1
+        return Report(path, "refreshed", jobs=(Job("crowded", "ok"),))
+
+
+def run(worker: RefreshWorker):
+    worker.start()
+    return worker
+
+
+def test_a_path_saved_again_during_its_refresh_runs_once_more_after_never_twice_at_once():
+    gate = Gate()
+    outcomes: list[Outcome] = []
+    worker = run(RefreshWorker(gate, on_outcome=outcomes.append, workers=2))
+    try:
+        worker.submit(A)
+        assert wait_for(lambda: gate.calls == [A])
+        worker.submit(A)  # ready again while running
+        worker.submit(A)  # and again: still only one more run
+        time.sleep(0.05)
+        assert gate.calls == [A] and gate.most_active == 1  # the second thread did not take A
+        gate.release.set()
+        assert wait_for(lambda: len(outcomes) == 2)
+        time.sleep(0.05)
+        assert gate.calls == [A, A]
+        assert not worker.busy()
+    finally:
+        worker.stop()
+
+
+def test_one_workbook_at_a_time_by_default():
+    gate = Gate()
+    outcomes: list[Outcome] = []
+    worker = run(RefreshWorker(gate, on_outcome=outcomes.append))
+    try:
+        worker.submit(A)
+        worker.submit(B)
+        worker.submit(B)  # queued once
+        assert wait_for(lambda: gate.calls == [A])
+        gate.release.set()
+        assert wait_for(lambda: len(outcomes) == 2)
+        assert gate.most_active == 1 and gate.calls == [A, B]
+        assert [o.status for o in outcomes] == ["refreshed", "refreshed"]
+        assert outcomes[0].jobs[0].name == "crowded" and outcomes[0].duration_s == 0.5  # the report's
+    finally:
+        worker.stop()
+
+
+def test_exceptions_become_failed_outcomes_and_the_worker_carries_on():
+    def refresh(path, *, progress=None):
+        if path == A:
+            raise PackageError("'ferry.xlsx' is not a zip package")
+        if path == B:
+            raise KeyError("Passengers")
+        return Report(path, "unchanged")
+
+    outcomes: list[Outcome] = []
+    worker = run(RefreshWorker(refresh, on_outcome=outcomes.append))
+    try:
+        for path in (A, B, Path("/share/ok.xlsx")):
+            worker.submit(path)
+        assert wait_for(lambda: len(outcomes) == 3)
+    finally:
+        worker.stop()
+    first, second, third = outcomes
+    assert (first.status, first.message) == ("failed", "'ferry.xlsx' is not a zip package")
+    assert first.traceback is None  # an expected error: its message says it all
+    assert second.status == "failed" and second.message == "unexpected error (KeyError: 'Passengers')"
+    assert "Traceback" in second.traceback
+    assert third.status == "unchanged"
+
+
+def test_stop_drops_the_queue_and_abandons_a_long_refresh_through_progress():
+    gate = Gate()  # never released: only the progress callback can end it
+    outcomes: list[Outcome] = []
+    worker = run(RefreshWorker(gate, on_outcome=outcomes.append))
+    worker.submit(A)
+    worker.submit(B)
+    assert wait_for(lambda: gate.calls == [A])
+    started = time.monotonic()
+    dropped, clean = worker.stop(grace=0.2, abandon_wait=2.0)
+    assert time.monotonic() - started < 1.5
+    assert dropped == [B] and clean
+    assert [o.status for o in outcomes] == ["abandoned"]
+    assert gate.calls == [A]
+
+
+def test_stop_lets_a_short_refresh_finish():
+    gate = Gate()
+    outcomes: list[Outcome] = []
+    worker = run(RefreshWorker(gate, on_outcome=outcomes.append))
+    worker.submit(A)
+    assert wait_for(lambda: gate.calls == [A])
+    threading.Timer(0.1, gate.release.set).start()
+    dropped, clean = worker.stop(grace=2.0)
+    assert dropped == [] and clean
+    assert [o.status for o in outcomes] == ["refreshed"]
+
+
+def test_a_path_no_longer_ready_is_deferred_not_refreshed():
+    calls: list[Path] = []
+    deferred: list[Path] = []
+    worker = run(RefreshWorker(lambda p, progress=None: calls.append(p) or Report(p, "refreshed"),
+                               on_outcome=lambda o: None, still_ready=lambda p: p != A,
+                               on_deferred=deferred.append))
+    try:
+        worker.submit(A)
+        worker.submit(B)
+        assert wait_for(lambda: calls == [B] and deferred == [A])
+    finally:
+        worker.stop()
+
+
+def test_log_lines_and_json_records(tmp_path):
+    stream = io.StringIO()
+    log = WatchLog(stream, tmp_path / "log.jsonl")
+    log.outcome(Outcome(A, "refreshed", "", 1.234, jobs=Outcome.from_report(A, Report(A, "refreshed", jobs=(
+        Job("crowded", "ok", next_forecast=float("nan"), best_method="majority vote"),
+        Job("alarms", "failed", "`event` must be a criterion; got 'lots' in row 3 of sheet tocsin"),
+    )), 0.0).jobs))
+    log.outcome(Outcome(B, "unchanged", "", 0.01))
+    log.event("waiting", "waiting ...", workbook=str(B), owner_file=Path("/share/~$bakery.xlsx"))
+    log.close()
+    lines = stream.getvalue().splitlines()
+    assert "refreshed  /share/ferry.xlsx  2 jobs (1 failed)  1.23 s" in lines[0]
+    assert lines[1] == ("    job 'alarms' failed: `event` must be a criterion; got 'lots' in row 3 of "
+                        "sheet tocsin")
+    assert not any("bakery" in line and "unchanged" in line for line in lines)  # file only
+    records = [json.loads(x) for x in (tmp_path / "log.jsonl").read_text().splitlines()]
+    assert [r["event"] for r in records] == ["refresh", "refresh", "waiting"]
+    assert records[0]["jobs"][0] == {"name": "crowded", "status": "ok", "message": "",
+                                     "next_forecast": None, "best_method": "majority vote"}
+    assert records[1]["status"] == "unchanged"
+    assert records[2]["owner_file"] == "/share/~$bakery.xlsx"
