@@ -59,13 +59,16 @@ def _d(text: str) -> np.datetime64:
 
 # ------------------------------------------------------------------------------------- column names
 
-def test_column_letters_round_trip():
+def test_column_letters_round_trip(tmp_path):
     assert [column_letter(i) for i in (0, 25, 26, 27, 51, 52, 701, 702, 16383)] == \
         ["A", "Z", "AA", "AB", "AZ", "BA", "ZZ", "AAA", "XFD"]   # XFD: the last column (ECMA-376)
     assert all(column_index(column_letter(i)) == i for i in range(0, 16384, 97))
     assert column_index(" bc ") == 54
     with pytest.raises(InputError, match="column letter"):
         column_index("A1")
+    path = _xlsx(Path(tmp_path) / "b.xlsx", [["Date", "Flag"], [dt.date(2024, 1, 1), 1]])
+    with pytest.raises(ReaderError, match=r"'Flg' is outside the used columns A:B .*; did you mean 'Flag'\?"):
+        read_sheet(path, "Data", ["Flg"])     # FLG is a column letter too, far to the right
     with pytest.raises(InputError, match="A to XFD"):
         column_index("XFE")
 
@@ -97,7 +100,8 @@ def test_missing_column_names_workbook_sheet_and_closest_header(tmp_path):
     assert "did you mean 'Passengers'?" in msg
     with pytest.raises(ReaderError, match=r"date column 'When' not found .* the headers are 'Date', "):
         read_sheet(path, "Daily", ["Passengers"], date_column="When")
-    with pytest.raises(ReaderError, match=r"column E is outside the used columns A:B of sheet 'Daily'"):
+    with pytest.raises(ReaderError, match=r"^column 'E' is outside the used columns A:B of sheet 'Daily' "
+                                          r"in ferry.xlsx$"):
         read_sheet(path, "Daily", ["E"])
     assert isinstance(err.value, InputError) and isinstance(err.value, TocsinError)
 
@@ -112,7 +116,8 @@ def test_duplicate_header_is_an_error_but_its_letter_works(tmp_path):
 def test_missing_sheet_suggests_closest_and_matches_case_insensitively(tmp_path):
     path = _xlsx(tmp_path / "b.xlsx", [["Date", "x"], [dt.date(2024, 1, 1), 1]], sheet="Pump log")
     assert read_sheet(path, "PUMP LOG", ["x"]).sheet == "Pump log"
-    with pytest.raises(ReaderError, match=r"sheet 'Pump logs' not found in b.xlsx; did you mean 'Pump log'\?"):
+    with pytest.raises(ReaderError,
+                       match=r"sheet 'Pump logs' not found in b.xlsx; did you mean 'Pump log'\?"):
         read_sheet(path, "Pump logs", ["x"])
     with pytest.raises(ReaderError, match=r"sheet 'Other' not found in b.xlsx; the sheets are 'Pump log'"):
         read_header(path, "Other")

@@ -128,26 +128,33 @@ class Header:
         Raises :class:`ReaderError` naming the sheet and the closest header when there is none, or when
         the header text appears in more than one column. ``what`` names the setting in the message.
         """
+        index, reason = self.locate(name)
+        if index is not None:
+            return index
+        raise ReaderError(f"{what} {name!r} {reason}")
+
+    def locate(self, name: str) -> tuple[int | None, str]:
+        """``(index, '')`` for a column found, else ``(None, reason)``: why ``name`` names no column,
+        with the closest header (the reason names the sheet and the workbook)."""
+        where = f"sheet {self.sheet!r} in {self.book}"
         key = _norm(str(name))
         if not key:
-            raise ReaderError(f"{what} must name a column; got a blank in sheet {self.sheet!r} of "
-                              f"{self.book}")
+            return None, f"must name a column; got a blank in {where}"
         hits = [j for j, t in enumerate(self.texts) if _norm(t) == key]
         if len(hits) > 1:
             cols = " and ".join(column_letter(j) for j in hits[:2])
-            raise ReaderError(f"{what} {name!r} matches the header of columns {cols} in sheet "
-                              f"{self.sheet!r} of {self.book}; rename one or give the column letter")
+            return None, (f"matches the header of columns {cols} in {where}; rename one or give the "
+                          f"column letter")
         if hits:
-            return hits[0]
+            return hits[0], ""
         if _LETTERS.fullmatch(str(name).strip()):
             j = column_index(str(name))
             if j < len(self.texts):
-                return j
-            raise ReaderError(f"{what} {name!r}: column {str(name).strip().upper()} is outside the used "
-                              f"columns A:{column_letter(max(len(self.texts) - 1, 0))} of sheet "
-                              f"{self.sheet!r} in {self.book}")
-        raise ReaderError(f"{what} {name!r} not found in the header row (row {self.row}) of sheet "
-                          f"{self.sheet!r} in {self.book}{self.suggest(name)}")
+                return j, ""
+            hint = self.suggest(name)
+            return None, (f"is outside the used columns A:{column_letter(max(len(self.texts) - 1, 0))} "
+                          f"of {where}{hint if hint.startswith('; did you mean') else ''}")
+        return None, f"not found in the header row (row {self.row}) of {where}{self.suggest(name)}"
 
     def has(self, name: str) -> bool:
         """Whether :meth:`find` would find ``name``."""
