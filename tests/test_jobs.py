@@ -329,6 +329,13 @@ def test_missing_data_sheet_suggests_the_closest(tmp_path):
     assert "must be a data sheet, not the job table" in err.message
 
 
+def test_data_sheet_must_not_be_empty(tmp_path):
+    table = read_job_table(_book(tmp_path, _table({**BASE, "data_sheet": "Blank"}), extra={"Blank": []}))
+    assert _one_error(table).message == (
+        "`data_sheet` must name a sheet with a header row and data; got 'Blank' in row 2 of sheet tocsin; "
+        "sheet 'Blank' in b.xlsx is empty; expected a header row and data rows")
+
+
 @pytest.mark.parametrize("setting, value", [("value_column", "Valeu"), ("date_column", "Dates"),
                                             ("predictors", "Other, Othr"), ("known_ahead", "Flg")])
 def test_missing_column_suggests_the_closest_header(tmp_path, setting, value):

@@ -573,7 +573,8 @@ def _parse_row(r: _Row, book: Any, data_sheets: set[str]) -> Job:
         try:
             header = book.header(sheet)
         except TocsinError as exc:
-            problems.append(_Bad("data_sheet", f"`data_sheet` {sheet!r} cannot be read: {exc} {r.where}"))
+            problems.append(r.bad("data_sheet", "must name a sheet with a header row and data", value=sheet,
+                                  hint=str(exc)))
         else:
             cols = {"value_column": value_column, "date_column": date_column,
                     "predictors": values["predictors"], "known_ahead": values["known_ahead"]}
