@@ -498,3 +498,25 @@ def test_workbook_opened_while_queued_behind_another_waits(share):
         owner.unlink()
         rig.settle(second)
         assert fake.refreshed(second) == [digest_of("b")]
+
+
+def test_busy_answer_from_the_refresh_is_retried(share):
+    class BusyOnce(FakeRefresh):  # the owner file came and went between the watcher's look and the refresh's
+        answered = False
+
+        def __call__(self, path, *, force=False, progress=None):
+            if not self.answered:
+                self.answered = True
+                self._note(path, "busy", None)
+                return FakeReport(path, "busy", message="open in a spreadsheet program")
+            return super().__call__(path, force=force, progress=progress)
+
+    fake = BusyOnce()
+    book = share / "ferry.xlsx"
+    with Rig(share, refresh=fake, initial=False) as rig:
+        save_by_rename(book, "v1")
+        rig.settle(book)
+        assert fake.statuses(book)[:2] == ["busy", "refreshed"]
+        assert fake.refreshed(book) == [digest_of("v1")]
+    assert "  busy     " not in rig.stream.getvalue()  # no status line: the debouncer's waiting line says it
+    assert [r["status"] for r in rig.events("refresh")][:2] == ["busy", "refreshed"]

@@ -49,8 +49,8 @@ class JobOutcome:
 class Outcome:
     """What one refresh attempt came to, whatever happened inside it.
 
-    ``status`` is the report's status ("refreshed", "unchanged", "failed", "conflict"), or "failed" when
-    the refresh raised, or "abandoned" when the watcher stopped it.
+    ``status`` is the report's status ("refreshed", "unchanged", "failed", "conflict", "busy"), or
+    "failed" when the refresh raised, or "abandoned" when the watcher stopped it.
     """
 
     path: Path

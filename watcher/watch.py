@@ -280,8 +280,10 @@ class Watcher:
 
     def _outcome(self, outcome: Outcome) -> None:
         self._log.outcome(outcome)
-        if outcome.status == "conflict" and self._debouncer is not None:
-            self._debouncer.submit(outcome.path)  # changed while computing: start again once it settles
+        if outcome.status in ("conflict", "busy") and self._debouncer is not None:
+            # conflict: changed while computing; busy: opened just before the refresh looked. Either
+            # way start again: the debouncer waits for quiet, and for the owner file to go.
+            self._debouncer.submit(outcome.path)
         if self._on_outcome is not None:
             self._on_outcome(outcome)
 

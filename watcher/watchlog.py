@@ -91,11 +91,12 @@ class WatchLog:
     def outcome(self, outcome: Outcome) -> None:
         """Log one refresh attempt (and one extra line per failed job).
 
-        "unchanged" (nothing to do; tocsin's own write coming back is one) goes to the JSON file only,
-        so the human log shows what was written or went wrong.
+        "unchanged" (nothing to do; tocsin's own write coming back is one) and "busy" (open in a
+        spreadsheet program; the "waiting" line says so) go to the JSON file only, so the human log
+        shows what was written or went wrong.
         """
         jobs = outcome.jobs
-        failed = [job for job in jobs if job.status != "ok"]
+        failed = [job for job in jobs if job.status == "failed"]
         if not jobs:
             jobs_text = "no jobs run"
         elif failed:
@@ -120,4 +121,5 @@ class WatchLog:
         }
         if outcome.traceback:
             fields["traceback"] = outcome.traceback
-        self.event("refresh", text, on_stream=outcome.status != "unchanged", **fields)
+        quiet = outcome.status in ("unchanged", "busy")  # busy: the "waiting" line says it
+        self.event("refresh", text, on_stream=not quiet, **fields)
