@@ -46,7 +46,7 @@ _WEEKDAYS = ("Monday", "Tuesday", "Wednesday", "Thursday", "Friday", "Saturday",
 
 @dataclass
 class Design:
-    """The matrix without its constant column, the term labels and what the caller should be told."""
+    """The matrix (constant column first), the term labels and what the caller should be told."""
 
     x: np.ndarray
     terms: list[str]
@@ -200,5 +200,8 @@ def build(y: np.ndarray, *, values: Any = None, predictors: Mapping[str, Any] | 
             raise InputError(f"term names must be unique and not 'constant'; got {t!r} twice or "
                              f"reserved (rename the predictor)")
         seen.add(t)
-    x = np.column_stack(cols) if cols else np.empty((n, 0))
-    return Design(np.ascontiguousarray(x, dtype=float), terms, notes)
+    x = np.empty((n, 1 + len(cols)))
+    x[:, 0] = 1.0
+    for j, col in enumerate(cols, start=1):
+        x[:, j] = col
+    return Design(x, ["constant"] + terms, notes)

@@ -37,9 +37,13 @@ from sheetfns.logistic import (
 _WARM_TOL = 1e-5
 
 
-def _rows(a: int, b: int) -> str:
-    """1-based inclusive row range for notes."""
-    return f"row {a + 1}" if a == b else f"rows {a + 1}-{b + 1}"
+def _rows(a: int, b: int, verb: str = "") -> str:
+    """1-based inclusive row range for notes, with ``verb`` ("has"/"have", "carries"/"carry") agreeing."""
+    text = f"row {a + 1}" if a == b else f"rows {a + 1}-{b + 1}"
+    if verb:
+        singular, plural = verb.split("/")
+        text += " " + (singular if a == b else plural)
+    return text
 
 
 class _Roller:
@@ -147,13 +151,16 @@ def run(y: np.ndarray, design: Design, *, last: int, horizon: int, train_size: i
         every: int) -> LogitForecast:
     """Carry out the estimation scheme; see :func:`sheetfns.logistic.forecast`."""
     n = y.size
-    x = np.column_stack([np.ones(n), design.x])
-    terms = ["constant"] + design.terms
+    x, terms = design.x, design.terms
     k = len(terms)
     notes = list(design.notes)
     complete = np.isfinite(x).all(axis=1)
     usable = np.flatnonzero(complete & ~np.isnan(y))
-    roller = _Roller(np.ascontiguousarray(x[usable]), y[usable], terms)
+    if usable.size and usable[-1] - usable[0] + 1 == usable.size:  # no gap: a view, not a copy
+        xe, ye = x[usable[0]:usable[-1] + 1], y[usable[0]:usable[-1] + 1]
+    else:
+        xe, ye = x[usable], y[usable]
+    roller = _Roller(xe, ye, terms)
     prob = np.full(n, np.nan)
 
     def window(origin: np.ndarray | int):
@@ -166,8 +173,9 @@ def run(y: np.ndarray, design: Design, *, last: int, horizon: int, train_size: i
         ok = np.flatnonzero(window(targets - horizon) >= m_need)
         t0 = int(ok[0]) if ok.size else last + 1
         if t0 > 0:
-            notes.append(f"{_rows(0, min(t0, last + 1) - 1)} have no forecast: a roll-forward fit needs "
-                         f"at least {m_need} usable rows (10 per term, at least 30) observed by its origin")
+            notes.append(f"{_rows(0, min(t0, last + 1) - 1, 'has/have')} no forecast: a roll-forward "
+                         f"fit needs at least {m_need} usable rows (10 per term, at least 30) observed "
+                         f"by its origin")
         scheme = "roll-forward: refitted at every origin" if every == 1 else \
             f"roll-forward: refitted every {every} origins"
         notes.append(f"{scheme} on all usable rows observed by the origin (expanding window)")
@@ -177,7 +185,7 @@ def run(y: np.ndarray, design: Design, *, last: int, horizon: int, train_size: i
         if m0 < k + 1:
             raise InputError(f"`train_size` leaves {m0} usable rows for {k} terms at the first "
                              f"validation origin; need at least {k + 1}; got train_size={train_size}")
-        fixed_rows = _rows(0, t0 - horizon)
+        fixed_rows = _rows(0, min(t0 - horizon, last))
         if every == 0:
             notes.append(f"fixed: coefficients estimated once on {fixed_rows} (the rows observed at the "
                          f"first validation origin) and used for every validation row")
@@ -188,7 +196,8 @@ def run(y: np.ndarray, design: Design, *, last: int, horizon: int, train_size: i
         if horizon > 1:
             notes.append(f"horizon {horizon}: the last {horizon - 1} training row(s) are not yet "
                          f"observed at the first validation origin, so the first fit leaves them out")
-        notes.append(f"training {_rows(0, t0 - 1)} carry no forecast: the model is estimated on them, "
+        notes.append(f"training {_rows(0, min(t0 - 1, last), 'carries/carry')} no forecast: the model is "
+                     f"estimated on them, "
                      f"and an in-sample fit would use observations after the origin")
         if m0 < min_rows(k):
             notes.append(f"only {m0} usable rows for {k} terms in the first fit (fewer than "
@@ -228,8 +237,8 @@ def run(y: np.ndarray, design: Design, *, last: int, horizon: int, train_size: i
             notes.append("coefficient table: the fit on all usable observed rows (no row had an "
                          "earlier fit)")
     if last + horizon < n - 1:
-        notes.append(f"future {_rows(last + horizon + 1, n - 1)} have no forecast: the lagged inputs end "
-                     f"{horizon} row(s) past the last observation")
+        notes.append(f"future {_rows(last + horizon + 1, n - 1, 'has/have')} no forecast: the lagged "
+                     f"inputs end {horizon} row(s) past the last observation")
     notes += _roller_notes(roller, fit_table)
     table = coefficient_table(fit_table) if fit_table is not None else coefficient_table(
         LogitFit(np.full(k, np.nan), np.full(k, np.nan), np.nan, False, (), tuple(terms)))

@@ -189,10 +189,10 @@ def test_design_lags_follow_the_horizon():
     y = np.array([0, 1, 1, 0, 1, 0, 0, 1], dtype=float)
     v = np.arange(8, dtype=float) * 10
     d = build(y, values=v, predictors={"p": v + 1}, known_ahead={"k": v + 2}, horizon=2, lags=2)
-    assert d.terms == ["event t-2", "event t-3", "value t-2", "p", "k"]
+    assert d.terms == ["constant", "event t-2", "event t-3", "value t-2", "p", "k"]
     t = 5
-    np.testing.assert_array_equal(d.x[t], [y[3], y[2], v[3], v[3] + 1, v[5] + 2])
-    assert np.isnan(d.x[2, 1]) and not np.isnan(d.x[3, 1])
+    np.testing.assert_array_equal(d.x[t], [1.0, y[3], y[2], v[3], v[3] + 1, v[5] + 2])
+    assert np.isnan(d.x[2, 2]) and not np.isnan(d.x[3, 2])
 
 
 def test_time_axis_units():
@@ -213,8 +213,8 @@ def test_time_axis_units():
 def test_weekday_terms_leave_one_day_out():
     dates = pd.date_range("2024-01-01", periods=21, freq="D")
     d = build(np.zeros(21), dates=dates, lags=0, weekday=True)
-    assert d.terms == ["Tuesday", "Wednesday", "Thursday", "Friday", "Saturday", "Sunday"]
-    np.testing.assert_array_equal(d.x.sum(axis=0), np.full(6, 3.0))
+    assert d.terms[1:] == ["Tuesday", "Wednesday", "Thursday", "Friday", "Saturday", "Sunday"]
+    np.testing.assert_array_equal(d.x[:, 1:].sum(axis=0), np.full(6, 3.0))
 
 
 # ---------------------------------------------------------------------------------------------------
