@@ -48,6 +48,8 @@ METHOD_LABELS: dict[str, str] = {
     "logistic": "logistic",
 }
 
+_PREFERENCE = ("majority", "majority_roll", "naive_roll", "naive", "seasonal_roll", "seasonal", "logistic")
+
 # Scorecard rows: (key in the score dicts, label shown, kind) where kind picks the cell format and
 # whether a higher or a lower value is better ("hi", "lo", or "" for neither).
 SCORE_ROWS: tuple[tuple[str, str, str, str], ...] = (
@@ -220,7 +222,8 @@ def evaluate(events: Any, *, train_size: int, settings: Settings | None = None, 
     def usable(k: str) -> bool:
         return not math.isnan(card[k]["brier"])
 
-    ranked = sorted((k for k in card if usable(k)), key=lambda k: card[k]["brier"])
+    # On a tie the simpler method wins: a model must beat the reference to be named best.
+    ranked = sorted((k for k in card if usable(k)), key=lambda k: (card[k]["brier"], _PREFERENCE.index(k)))
     best = ranked[0] if ranked else None
     comparisons: dict[str, float] = {}
     reliability = roc = None
