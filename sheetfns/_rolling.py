@@ -58,16 +58,19 @@ class _Roller:
         self.point: tuple[np.ndarray, np.ndarray, np.ndarray, int] | None = None
         self.colmax: np.ndarray | None = None
         self.colmax_m = 0
+        self.checked: set[int] = set()   # windows fitted with full checks and covariance
 
     def get(self, m: int, *, need_cov: bool = False) -> LogitFit:
         f = self.cache.get(m)
-        if f is not None and (f.cov is not None or not need_cov):
+        if f is not None and (not need_cov or m in self.checked):
             return f
         f = self._warm(m) if self.clean and not need_cov and self.b is not None else None
         if f is None:
             f = fit_complete(self.xe[:m], self.ye[:m], self.terms, start=self.b,
                              tol=_TOL, need_cov=need_cov)
             self.counts["checked"] += 1
+            if need_cov:
+                self.checked.add(m)
             if f.fallback is not None:
                 self.counts["fallback"] += 1
             if f.penalty:
