@@ -3,8 +3,8 @@
 External references, named beside each check:
 * Spector & Mazzeo (1980) grade data as shipped with statsmodels (``statsmodels.datasets.spector``),
   against the logit estimates published in Greene, W. H., *Econometric Analysis* (5th ed., 2003,
-  Table 21.1), which are also the Stata reference values in statsmodels' own test results
-  (statsmodels/discrete/tests/results/results_discrete.py).
+  Table 21.1; edition and table number recalled from memory), which are also the Stata reference
+  values in statsmodels' own test results (statsmodels/discrete/tests/results/results_discrete.py).
 * ``statsmodels`` 0.15 ``Logit`` (a general-purpose reference library) on seeded random data, and
   refitted from scratch at every origin for the roll-forward schemes.
 Seeded random data only for the comparisons with statsmodels and for the property tests.
@@ -70,8 +70,9 @@ def _reference_forecast(y: np.ndarray, x: np.ndarray, targets, horizon: int, win
 
 
 def test_spector_matches_greene():
-    # Greene, Econometric Analysis (5th ed., 2003), Table 21.1, logit column; the same Stata values
-    # sit in statsmodels' results_discrete.py. Data: statsmodels.datasets.spector.
+    # Greene, Econometric Analysis (5th ed., 2003), Table 21.1 (table number recalled from memory),
+    # logit column; the same Stata values sit in statsmodels' results_discrete.py.
+    # Data: Spector & Mazzeo (1980), statsmodels.datasets.spector.
     data = sm.datasets.spector.load_pandas()
     res = logistic.fit(data.exog[["GPA", "TUCE", "PSI"]], data.endog)
     assert res.converged and not res.notes
@@ -393,6 +394,13 @@ def test_fit_bad_input():
         logistic.fit(np.array([np.nan, np.nan]), [0, 1])
     with pytest.raises(InputError, match=r"`start` must hold 2 values"):
         logistic.fit(np.arange(4.0), [0, 1, 0, 1], start=[0.0])
+
+
+def test_docstring_example():
+    # the example in fit's docstring (its values checked against statsmodels Logit)
+    import doctest
+
+    assert doctest.testmod(logistic).failed == 0
 
 
 def test_import_stays_light():
