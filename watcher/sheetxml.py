@@ -1,0 +1,473 @@
+"""A worksheet part (SpreadsheetML, ECMA-376 Part 1, §18.3) streamed from a :class:`SheetSpec`.
+
+:func:`worksheet_chunks` yields the part as UTF-8 byte chunks, never as one tree, and writes its child
+elements in schema order (CT_Worksheet: sheetPr, dimension, sheetViews, sheetFormatPr, cols, sheetData,
+conditionalFormatting, pageMargins, drawing). The cell XML of a table is produced in bulk: each column
+of a chunk of rows is formatted at once (small integer ranges through a lookup table, other numbers
+through one C-level ``%`` call per value), then the pieces of all columns are laid out in one object
+array and joined, so there is no Python call per cell.
+
+Values:
+
+* numbers are written with round-trip precision: integers exactly, other doubles as Python's ``repr``
+  (the shortest string that reads back as the same double); NaN and infinity become blank cells (a cell
+  with its format and no value), never numbers;
+* dates are serial numbers in the workbook's own date system (:func:`date_serials`): 1900 (serial 1 is
+  1900-01-01, the fictitious 1900-02-29 is serial 60, so 1900-03-01 is 61) or 1904 (serial 0 is
+  1904-01-01), ECMA-376 Part 1, §18.17.4.1. A date the system cannot hold (before its first day, after
+  9999-12-31) is written as ISO text so nothing is lost silently;
+* text is an inline string (``t="inlineStr"``), so the shared-strings part stays untouched; it is
+  escaped per the standard (:func:`escape_text`: ``&<>``, characters XML cannot carry and a literal
+  ``_xHHHH_`` as ``_xHHHH_`` escapes, ``xml:space="preserve"`` where white space matters) and cut to
+  32,767 characters;
+* booleans are ``t="b"`` cells.
+"""
+from __future__ import annotations
+
+import datetime as _dt
+import math
+import re
+from collections.abc import Iterator, Mapping
+
+import numpy as np
+
+from watcher.sheetspec import MAX_TEXT, Cells, Column, SheetSpec, Table, col_letter
+
+__all__ = ["CHUNK_ROWS", "date_serials", "escape_text", "style_keys", "worksheet_chunks"]
+
+CHUNK_ROWS = 32_768
+_XML_HEAD = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
+             '<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main" '
+             'xmlns:r="http://schemas.openxmlformats.org/officeDocument/2006/relationships">')
+_SCALE_COLORS = ("FFFFFFFF", "FFFBE3B2", "FFEFA23A")  # white -> light amber -> amber
+_MAX_SERIAL = 2_958_465  # 9999-12-31 in the 1900 system
+_MS_PER_DAY = 86_400_000
+_EPOCH_1900 = np.datetime64("1899-12-30", "ms").astype(np.int64)
+_EPOCH_1904 = np.datetime64("1904-01-01", "ms").astype(np.int64)
+_NAT = np.iinfo(np.int64).min
+_LITERAL_ESCAPE = re.compile(r"_(x[0-9A-Fa-f]{4}_)")
+_NOT_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\r\ud800-\udfff\ufffe\uffff]")
+
+
+# -- values --------------------------------------------------------------------------------------
+def escape_text(text: str) -> tuple[str, bool]:
+    """Escape cell text for XML; return ``(escaped, preserve)`` where ``preserve`` says the text needs
+    ``xml:space="preserve"``. Text longer than 32,767 UTF-16 code units is cut and ends with '…'."""
+    if len(text) > MAX_TEXT // 2:
+        units = len(text) + sum(1 for ch in text if ord(ch) > 0xFFFF)
+        if units > MAX_TEXT:
+            out, used = [], 0
+            for ch in text:
+                w = 2 if ord(ch) > 0xFFFF else 1
+                if used + w > MAX_TEXT - 1:
+                    break
+                out.append(ch)
+                used += w
+            text = "".join(out) + "\u2026"
+    if "_x" in text:
+        text = _LITERAL_ESCAPE.sub(r"_x005F_\1", text)
+    text = _NOT_XML.sub(lambda m: f"_x{ord(m.group()):04X}_", text)
+    text = text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+    preserve = bool(text) and (text[0].isspace() or text[-1].isspace() or "\n" in text or "\t" in text
+                               or "  " in text)
+    return text, preserve
+
+
+def date_serials(values: np.ndarray, date1904: bool) -> tuple[np.ndarray, np.ndarray]:
+    """Serial numbers of a ``datetime64`` array in the workbook's date system.
+
+    Returns ``(serials, unrepresentable)``: float serials (NaN for NaT and for dates the system cannot
+    hold) and a mask of the non-NaT dates it cannot hold.
+    """
+    ms = values.astype("datetime64[ms]").view(np.int64)
+    nat = ms == _NAT
+    if date1904:
+        days, rem = np.divmod(ms - _EPOCH_1904, _MS_PER_DAY)
+        top = _MAX_SERIAL - 1462
+    else:
+        days, rem = np.divmod(ms - _EPOCH_1900, _MS_PER_DAY)
+        days = np.where(days < 61, days - 1, days)  # before 1900-03-01: no fictitious 1900-02-29 yet
+        top = _MAX_SERIAL
+    serial = days + rem / _MS_PER_DAY
+    low = 0 if date1904 else 1
+    bad = ~nat & ((days < low) | (days > top))
+    serial = np.where(nat | bad, np.nan, serial)
+    return serial, bad
+
+
+def _scalar_serial(value, date1904: bool) -> float | None:
+    arr = np.array([np.datetime64(value, "ms")])
+    serial, bad = date_serials(arr, date1904)
+    return None if bad[0] or math.isnan(serial[0]) else float(serial[0])
+
+
+def _is_date(v) -> bool:
+    return isinstance(v, (_dt.date, np.datetime64))
+
+
+def _num_text(v: float) -> str | None:
+    if not math.isfinite(v):
+        return None
+    if v == int(v) and abs(v) < 2**53 and not (v == 0 and math.copysign(1, v) < 0):
+        return str(int(v))
+    return repr(float(v))
+
+
+class _Styles:
+    """Piece makers for one sheet: cell XML after ``<c r="A1`` for each kind of value and style."""
+
+    def __init__(self, mapping: Mapping[tuple[str, bool], int], date1904: bool) -> None:
+        self.mapping = mapping
+        self.date1904 = date1904
+
+    def sid(self, fmt: str, bold: bool = False) -> int:
+        return self.mapping[(fmt, bold)]
+
+    @staticmethod
+    def number(sid: int, text: str) -> str:
+        return f'" s="{sid}"><v>{text}</v></c>'
+
+    @staticmethod
+    def blank(sid: int) -> str:
+        return f'" s="{sid}"/>'
+
+    @staticmethod
+    def text(sid: int, value: str) -> str:
+        esc, preserve = escape_text(value)
+        space = ' xml:space="preserve"' if preserve else ""
+        return f'" s="{sid}" t="inlineStr"><is><t{space}>{esc}</t></is></c>'
+
+    def scalar(self, value, fmt: str, bold: bool = False) -> str | None:
+        """The piece of one value; None for a cell left out (None with format 'general')."""
+        sid = self.sid(fmt, bold)
+        if value is None:
+            return None if fmt == "general" and not bold else self.blank(sid)
+        if isinstance(value, str):
+            return self.text(sid, value)
+        if isinstance(value, (bool, np.bool_)):
+            return f'" s="{sid}" t="b"><v>{int(value)}</v></c>'
+        if _is_date(value):
+            serial = _scalar_serial(value, self.date1904)
+            if fmt not in ("date", "datetime"):
+                fmt = "datetime" if _has_time(value) else "date"
+                sid = self.sid(fmt, bold)
+            if serial is None:
+                if isinstance(value, np.datetime64) and np.isnat(value):
+                    return self.blank(sid)
+                return self.text(sid, str(np.datetime64(value, "s")).replace("T00:00:00", ""))
+            return self.number(sid, _num_text(serial))
+        try:
+            number = float(value)
+        except (TypeError, ValueError):
+            return self.text(sid, str(value))
+        text = _num_text(number)
+        return self.blank(sid) if text is None else self.number(sid, text)
+
+
+def _has_time(v) -> bool:
+    if isinstance(v, np.datetime64):
+        return not np.isnat(v) and v.astype("datetime64[ms]").astype(np.int64) % _MS_PER_DAY != 0
+    return isinstance(v, _dt.datetime) and (v.hour, v.minute, v.second, v.microsecond) != (0, 0, 0, 0)
+
+
+def style_keys(spec: SheetSpec) -> set[tuple[str, bool]]:
+    """The ``(fmt, bold)`` cell formats a sheet needs."""
+    keys: set[tuple[str, bool]] = {("general", False)}
+    for b in spec.blocks:
+        if isinstance(b, Cells):
+            for row in b.rows:
+                for value, fmt in row:
+                    keys.add((fmt, False))
+                    if _is_date(value) and fmt not in ("date", "datetime"):
+                        keys.add(("datetime" if _has_time(value) else "date", False))
+            continue
+        if b.header is not None:
+            keys.add((b.header_fmt, False))
+        for col in b.columns:
+            keys.add((col.fmt, False))
+            if col.bold is not None:
+                keys.add((col.fmt, True))
+            if not isinstance(col.values, np.ndarray) and col.fmt not in ("date", "datetime"):
+                dates = [v for v in col.values if _is_date(v)]
+                for flag in (False, True) if col.bold is not None else (False,):
+                    if any(not _has_time(v) for v in dates):
+                        keys.add(("date", flag))
+                    if any(_has_time(v) for v in dates):
+                        keys.add(("datetime", flag))
+    return keys
+
+
+# -- columns in bulk ---------------------------------------------------------------------------------
+def _numeric_pieces(x: np.ndarray, sid: int, suffix: str) -> list[str] | np.ndarray:
+    """Pieces for a float column: numbers with round-trip precision, blanks for NaN/inf."""
+    pre, post = f'" s="{sid}"><v>', "</v></c>" + suffix
+    blank = f'" s="{sid}"/>' + suffix
+    finite = np.isfinite(x)
+    all_finite = bool(finite.all())
+    xf = x if all_finite else x[finite]
+    if xf.size == 0:
+        return [blank] * len(x)
+    integral = bool(np.all(xf == np.trunc(xf))) and float(np.max(np.abs(xf))) < 2.0**53
+    if integral and np.any((xf == 0) & np.signbit(xf)):
+        integral = False  # keep -0.0 as written by repr
+    if integral:
+        lo, hi = int(xf.min()), int(xf.max())
+        span = hi - lo + 1
+        if span <= 4096 and span * 4 <= len(x) + 16:
+            table = np.array([f"{pre}{k}{post}" for k in range(lo, hi + 1)] + [blank], dtype=object)
+            idx = np.full(len(x), span, dtype=np.intp)
+            idx[finite] = (xf - lo).astype(np.intp)
+            return table[idx]
+        fmt = pre + "%d" + post
+    else:
+        fmt = pre + "%r" + post
+    if all_finite:
+        return list(map(fmt.__mod__, x.tolist()))
+    out = list(map(fmt.__mod__, np.where(finite, x, 0.0).tolist()))
+    for i in np.flatnonzero(~finite).tolist():
+        out[i] = blank
+    return out
+
+
+class _ColumnWriter:
+    """Makes the pieces of one table column for any row slice."""
+
+    def __init__(self, col: Column, styles: _Styles) -> None:
+        self.col = col
+        self.styles = styles
+        self.sid = styles.sid(col.fmt)
+        self.bold_sid = styles.sid(col.fmt, True) if col.bold is not None else None
+        values = col.values
+        self.kind = "object"
+        self.bad_dates = None
+        if isinstance(values, np.ndarray):
+            if values.dtype.kind == "M":
+                self.serials, self.bad_dates = date_serials(values, styles.date1904)
+                if not self.bad_dates.any():
+                    self.bad_dates = None
+                self.kind = "date"
+            else:
+                self.kind = "float"
+
+    def pieces(self, start: int, stop: int, suffix: str) -> list[str] | np.ndarray:
+        col = self.col
+        if self.kind == "object":
+            out = self._object_pieces(col.values[start:stop], suffix, bold=False)
+        else:
+            x = self.serials[start:stop] if self.kind == "date" else col.values[start:stop]
+            out = _numeric_pieces(x, self.sid, suffix)
+            if self.bad_dates is not None:
+                bad = np.flatnonzero(self.bad_dates[start:stop])
+                if bad.size:
+                    out = list(out)
+                    for i in bad.tolist():
+                        v = col.values[start + i]
+                        out[i] = self.styles.text(self.sid, str(np.datetime64(v, "s"))) + suffix
+        if col.bold is not None:
+            idx = np.flatnonzero(col.bold[start:stop])
+            if idx.size:
+                out = list(out)
+                for i in idx.tolist():
+                    out[i] = self._one(col.values[start + i], bold=True) + suffix
+        return out
+
+    def _one(self, value, bold: bool) -> str:
+        sid = self.bold_sid if bold else self.sid
+        if isinstance(value, (float, np.floating)):
+            text = _num_text(float(value))
+            return self.styles.blank(sid) if text is None else self.styles.number(sid, text)
+        piece = self.styles.scalar(value.item() if isinstance(value, np.generic) and not
+                                   isinstance(value, np.datetime64) else value, self.col.fmt, bold)
+        return self.styles.blank(sid) if piece is None else piece
+
+    def _object_pieces(self, values, suffix: str, bold: bool) -> list[str]:
+        cache: dict = {}
+        sid = self.bold_sid if bold else self.sid
+        blank = self.styles.blank(sid) + suffix
+        out = []
+        append = out.append
+        for v in values:
+            if v is None:
+                append(blank)
+                continue
+            t = type(v)
+            if t is str:
+                piece = cache.get(v)
+                if piece is None:
+                    piece = cache[v] = self.styles.text(sid, v) + suffix
+                append(piece)
+            elif t is float:
+                text = _num_text(v)
+                append(blank if text is None else self.styles.number(sid, text) + suffix)
+            else:
+                append(self._one(v, bold) + suffix)
+        return out
+
+
+# -- the part ------------------------------------------------------------------------------------
+class _Band:
+    """Rows ``start..stop-1`` of one block: a table's header row, a table's data rows, or Cells."""
+
+    def __init__(self, kind: str, block, start: int, stop: int) -> None:
+        self.kind, self.block, self.start, self.stop = kind, block, start, stop
+        self.col = block.col
+
+
+def _bands(spec: SheetSpec) -> list[_Band]:
+    out = []
+    for b in spec.blocks:
+        if isinstance(b, Cells):
+            if b.height:
+                out.append(_Band("cells", b, b.row, b.row + b.height))
+            continue
+        if b.header is not None:
+            out.append(_Band("header", b, b.row, b.row + 1))
+        if b.n_rows:
+            out.append(_Band("data", b, b.first_data_row, b.first_data_row + b.n_rows))
+    return out
+
+
+def _sheet_data(spec: SheetSpec, styles: _Styles, chunk_rows: int) -> Iterator[str]:
+    bands = _bands(spec)
+    writers = {id(b): [_ColumnWriter(c, styles) for c in b.columns] for b in spec.blocks
+               if isinstance(b, Table)}
+    cuts = sorted({x for band in bands for x in (band.start, band.stop)})
+    for seg_start, seg_stop in zip(cuts, cuts[1:], strict=False):
+        active = sorted((band for band in bands if band.start <= seg_start < band.stop), key=lambda b: b.col)
+        if not active:
+            continue
+        if all(band.kind == "data" for band in active):
+            yield from _bulk_rows(active, writers, seg_start, seg_stop, chunk_rows)
+        else:
+            yield from _generic_rows(active, writers, styles, seg_start, seg_stop)
+
+
+def _bulk_rows(active: list[_Band], writers, seg_start: int, seg_stop: int,
+               chunk_rows: int) -> Iterator[str]:
+    cols = []  # (sheet column, writer, band)
+    for band in active:
+        for j, w in enumerate(writers[id(band.block)]):
+            cols.append((band.col + j, w, band))
+    letters = [col_letter(c) for c, _, _ in cols]
+    suffixes = [f'<c r="{letters[k + 1]}' for k in range(len(cols) - 1)] + ["</row>"]
+    k = len(cols)
+    for a in range(seg_start, seg_stop, chunk_rows):
+        b = min(seg_stop, a + chunk_rows)
+        rows = list(map(str, range(a + 1, b + 1)))
+        arr = np.empty((b - a, 3 + 2 * k), dtype=object)
+        arr[:, 0] = '<row r="'
+        arr[:, 1] = rows
+        arr[:, 2] = f'"><c r="{letters[0]}'
+        for j, (_, w, band) in enumerate(cols):
+            off = band.block.first_data_row
+            arr[:, 3 + 2 * j] = rows
+            arr[:, 4 + 2 * j] = w.pieces(a - off, b - off, suffixes[j])
+        yield "".join(arr.ravel().tolist())
+
+
+def _generic_rows(active: list[_Band], writers, styles: _Styles, seg_start: int,
+                  seg_stop: int) -> Iterator[str]:
+    per_band = []
+    for band in active:
+        if band.kind == "data":
+            off = band.block.first_data_row
+            per_band.append((band, [w.pieces(seg_start - off, seg_stop - off, "")
+                                    for w in writers[id(band.block)]]))
+        else:
+            per_band.append((band, None))
+    out = []
+    for r in range(seg_start, seg_stop):
+        cells = []
+        for band, pieces in per_band:
+            if band.kind == "data":
+                i = r - seg_start
+                cells.extend((band.col + j, p[i]) for j, p in enumerate(pieces))
+            elif band.kind == "header":
+                t = band.block
+                sid = styles.sid(t.header_fmt)
+                cells.extend((t.col + j, styles.text(sid, h) if h else styles.blank(sid))
+                             for j, h in enumerate(t.header))
+            else:
+                for j, (value, fmt) in enumerate(band.block.rows[r - band.start]):
+                    piece = styles.scalar(value, fmt)
+                    if piece is not None:
+                        cells.append((band.col + j, piece))
+        if not cells:
+            continue
+        cells.sort(key=lambda t: t[0])
+        row = str(r + 1)
+        out.append(f'<row r="{row}">' + "".join(f'<c r="{col_letter(c)}{row}{p}' for c, p in cells)
+                   + "</row>")
+    yield "".join(out)
+
+
+def _sheet_views(spec: SheetSpec, selected: bool) -> str:
+    sel = ' tabSelected="1"' if selected else ""
+    if spec.freeze is None:
+        return f'<sheetViews><sheetView{sel} workbookViewId="0"/></sheetViews>'
+    rows, cols = spec.freeze
+    top_left = f"{col_letter(cols)}{rows + 1}"
+    attrs = ""
+    if cols:
+        attrs += f' xSplit="{cols}"'
+    if rows:
+        attrs += f' ySplit="{rows}"'
+    pane = "bottomRight" if rows and cols else ("bottomLeft" if rows else "topRight")
+    return (f'<sheetViews><sheetView{sel} workbookViewId="0"><pane{attrs} topLeftCell="{top_left}" '
+            f'activePane="{pane}" state="frozen"/><selection pane="{pane}" activeCell="{top_left}" '
+            f'sqref="{top_left}"/></sheetView></sheetViews>')
+
+
+def worksheet_chunks(spec: SheetSpec, *, styles: Mapping[tuple[str, bool], int], date1904: bool,
+                     drawing_rid: str | None = None, selected: bool = False,
+                     chunk_rows: int = CHUNK_ROWS) -> Iterator[bytes]:
+    """The worksheet part of ``spec`` as UTF-8 chunks.
+
+    Parameters
+    ----------
+    spec : SheetSpec
+    styles : mapping
+        ``(fmt, bold)`` -> index into the workbook's ``cellXfs`` (see :func:`style_keys`).
+    date1904 : bool
+        The workbook's date system.
+    drawing_rid : str, optional
+        Relationship id of the sheet's drawing part (charts), if any.
+    selected : bool
+        Whether the sheet's tab is the selected one (the workbook's active sheet).
+    """
+    st = _Styles(styles, date1904)
+    head = [_XML_HEAD]
+    if spec.tab_color:
+        head.append(f'<sheetPr><tabColor rgb="FF{spec.tab_color}"/></sheetPr>')
+    rows, cols = spec.extent
+    ref = "A1" if not rows or not cols else f"A1:{col_letter(cols - 1)}{rows}"
+    if rows and cols:
+        first_row = min(b.row for b in spec.blocks if b.height and b.width)
+        first_col = min(b.col for b in spec.blocks if b.height and b.width)
+        ref = f"{col_letter(first_col)}{first_row + 1}:{col_letter(cols - 1)}{rows}"
+        if ref.split(":")[0] == ref.split(":")[1]:
+            ref = ref.split(":")[0]
+    head.append(f'<dimension ref="{ref}"/>')
+    head.append(_sheet_views(spec, selected))
+    head.append('<sheetFormatPr defaultRowHeight="15"/>')
+    if spec.col_widths:
+        head.append("<cols>" + "".join(
+            f'<col min="{c + 1}" max="{c + 1}" width="{w:g}" customWidth="1"/>' for c, w in spec.col_widths)
+            + "</cols>")
+    head.append("<sheetData>")
+    yield "".join(head).encode("utf-8")
+    for text in _sheet_data(spec, st, chunk_rows):
+        if text:
+            yield text.encode("utf-8", "surrogatepass")
+    tail = ["</sheetData>"]
+    for priority, rng in enumerate(spec.color_scales, start=1):
+        lo, mid, hi = _SCALE_COLORS
+        tail.append(f'<conditionalFormatting sqref="{rng.a1()}"><cfRule type="colorScale" '
+                    f'priority="{priority}"><colorScale><cfvo type="min"/><cfvo type="percentile" val="50"/>'
+                    f'<cfvo type="max"/><color rgb="{lo}"/><color rgb="{mid}"/><color rgb="{hi}"/>'
+                    "</colorScale></cfRule></conditionalFormatting>")
+    tail.append('<pageMargins left="0.7" right="0.7" top="0.75" bottom="0.75" header="0.3" footer="0.3"/>')
+    if drawing_rid:
+        tail.append(f'<drawing r:id="{drawing_rid}"/>')
+    tail.append("</worksheet>")
+    yield "".join(tail).encode("utf-8")

@@ -1,0 +1,275 @@
+"""The zip layer of a workbook package: read members safely, copy them *as compressed bytes*, write new
+members deterministically.
+
+Why not ``zipfile`` for writing: it cannot copy a member's compressed bytes, and it rewrites header
+fields of the ``ZipInfo`` it is given (``writestr`` mutates it). :class:`ZipWriter` writes the local
+headers, the central directory and the end record itself (the "ZIP File Format Specification",
+PKWARE APPNOTE.TXT, §4.3), so
+
+* a member tocsin does not own is copied byte for byte: same compressed data, CRC, sizes, method, time
+  stamp and attributes (only the optional "extra" fields and a data-descriptor flag are dropped, because
+  the sizes now stand in the local header);
+* a member tocsin writes gets a fixed time stamp (1980-01-01 00:00), so the same inputs give the same
+  bytes; big members are streamed through zlib (level 1) in a worker thread while the caller produces
+  the next chunk.
+
+Reading uses ``zipfile`` for the central directory only, over bytes already in memory (so what is hashed
+is what is parsed). Limits: a package is refused if it is not a zip, is truncated, has duplicate or
+encrypted members, or declares more than :data:`MAX_TOTAL` uncompressed bytes; a member that is parsed is
+read with a hard cap (:data:`MAX_PART`). Packages of 4 GiB or more (ZIP64) are not written.
+"""
+from __future__ import annotations
+
+import io
+import queue
+import struct
+import threading
+import zipfile
+import zlib
+from collections.abc import Iterable
+from dataclasses import dataclass
+from typing import BinaryIO
+
+from sheetfns.errors import PackageError
+
+__all__ = ["MAX_PART", "MAX_TOTAL", "Member", "ZipSource", "ZipWriter"]
+
+MAX_TOTAL = 2 * 1024**3
+"""Largest total uncompressed size a package may declare (2 GiB)."""
+MAX_PART = 256 * 1024**2
+"""Largest uncompressed size of one part that tocsin parses (workbook, styles, relationships, ...)."""
+
+_LOCAL = struct.Struct("<4sHHHHHIIIHH")
+_CENTRAL = struct.Struct("<4sHHHHHHIIIHHHHHII")
+_END = struct.Struct("<4sHHHHIIH")
+_FIXED_DOS_TIME = (0, (0 << 9) | (1 << 5) | 1)  # 1980-01-01 00:00:00 (time, date)
+_LIMIT32 = 0xFFFFFFFF
+_UTF8_FLAG = 0x800
+_DESCRIPTOR_FLAG = 0x8
+_VERSION = 20
+
+
+@dataclass(frozen=True)
+class Member:
+    """What the central directory says about one member (immutable; never handed to ``zipfile``)."""
+
+    name: str
+    flags: int
+    method: int
+    dos_time: int
+    dos_date: int
+    crc: int
+    compress_size: int
+    file_size: int
+    internal_attr: int
+    external_attr: int
+    header_offset: int
+    raw_name: bytes
+
+
+class ZipSource:
+    """A zip package held in memory. ``names`` keeps the members' order in the central directory."""
+
+    def __init__(self, data: bytes, label: str) -> None:
+        self.data = data
+        self.label = label
+        try:
+            zf = zipfile.ZipFile(io.BytesIO(data))
+            infos = zf.infolist()
+        except zipfile.BadZipFile as exc:
+            hint = ""
+            if data[:8] == b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1":
+                hint = " (it is an OLE compound file: an old .xls workbook or a password-protected one)"
+            elif data[:2] == b"PK":
+                hint = " (it looks truncated or damaged)"
+            raise PackageError(f"'{label}' is not a readable workbook package: not a complete zip file"
+                               f"{hint}") from exc
+        except (OSError, ValueError, EOFError, struct.error) as exc:
+            raise PackageError(f"'{label}' is not a readable workbook package: {exc}") from exc
+        self._zf = zf
+        self.members: dict[str, Member] = {}
+        self.names: list[str] = []
+        self._folded: dict[str, str] = {}
+        total = 0
+        for info in infos:
+            name = info.filename
+            if name in self.members or name.casefold() in self._folded:
+                raise PackageError(f"'{label}' has two members named '{name}'; refusing to guess which "
+                                   "counts")
+            if info.flag_bits & 0x1:
+                raise PackageError(f"'{label}': member '{name}' is encrypted; password-protected packages "
+                                   "are not supported")
+            total += info.file_size
+            if total > MAX_TOTAL:
+                raise PackageError(f"'{label}' declares more than {MAX_TOTAL // 1024**3} GiB of uncompressed "
+                                   "content; refused")
+            dt = info.date_time
+            dos_date = ((dt[0] - 1980) << 9) | (dt[1] << 5) | dt[2]
+            dos_time = (dt[3] << 11) | (dt[4] << 5) | (dt[5] // 2)
+            self.members[name] = Member(name, info.flag_bits, info.compress_type, dos_time, dos_date,
+                                        info.CRC, info.compress_size, info.file_size, info.internal_attr,
+                                        info.external_attr, info.header_offset,
+                                        name.encode("utf-8" if info.flag_bits & _UTF8_FLAG else "cp437"))
+            self.names.append(name)
+            self._folded[name.casefold()] = name
+
+    def find(self, part: str) -> str | None:
+        """The member name of a part name (part names are case-insensitive; a leading '/' is ignored)."""
+        return self._folded.get(part.lstrip("/").casefold())
+
+    def read(self, name: str, limit: int = MAX_PART) -> bytes:
+        """The uncompressed content of a member, refusing more than ``limit`` bytes."""
+        member = self.members[name]
+        if member.file_size > limit:
+            raise PackageError(f"'{self.label}': part '{name}' is {member.file_size:,} bytes uncompressed, "
+                               f"more than the {limit:,} tocsin reads; refused")
+        try:
+            with self._zf.open(name) as fh:
+                out = fh.read(limit + 1)
+        except (zipfile.BadZipFile, zlib.error, OSError, EOFError, NotImplementedError) as exc:
+            raise PackageError(f"'{self.label}': part '{name}' cannot be read ({exc}); the file is "
+                               "damaged") from exc
+        if len(out) > limit:
+            raise PackageError(f"'{self.label}': part '{name}' is larger than the {limit:,} bytes tocsin "
+                               "reads; refused")
+        return out
+
+    def raw(self, name: str) -> bytes:
+        """The compressed bytes of a member, exactly as stored."""
+        m = self.members[name]
+        off = m.header_offset
+        head = self.data[off:off + _LOCAL.size]
+        if len(head) < _LOCAL.size:
+            raise PackageError(f"'{self.label}': member '{name}' lies past the end of the file (truncated)")
+        sig, *_rest, n_name, n_extra = _LOCAL.unpack(head)
+        if sig != b"PK\x03\x04":
+            raise PackageError(f"'{self.label}': member '{name}' has no local header; the file is damaged")
+        start = off + _LOCAL.size + n_name + n_extra
+        data = self.data[start:start + m.compress_size]
+        if len(data) != m.compress_size:
+            raise PackageError(f"'{self.label}': member '{name}' is cut short; the file is truncated")
+        return data
+
+
+class ZipWriter:
+    """Write a zip file member by member into a seekable binary file; :meth:`close` writes the central
+    directory. Member order is the order of the calls."""
+
+    def __init__(self, fh: BinaryIO) -> None:
+        self._fh = fh
+        self._entries: list[tuple[bytes, Member]] = []
+        self._names: set[str] = set()
+
+    # -- members ---------------------------------------------------------------------------------
+    def copy(self, member: Member, raw: bytes) -> None:
+        """Copy a member of another package: same compressed bytes, CRC, sizes, time and attributes."""
+        flags = member.flags & ~_DESCRIPTOR_FLAG
+        self._add(member.name, flags, member.method, member.dos_time, member.dos_date, member.crc,
+                  len(raw), member.file_size, member.internal_attr, member.external_attr, raw,
+                  raw_name=member.raw_name)
+
+    def write(self, name: str, data: bytes, *, level: int = 6) -> None:
+        """Add a member with content ``data`` (deflated at ``level``; 0 stores it)."""
+        if level == 0:
+            payload, method = data, zipfile.ZIP_STORED
+        else:
+            comp = zlib.compressobj(level, zlib.DEFLATED, -15)
+            payload, method = comp.compress(data) + comp.flush(), zipfile.ZIP_DEFLATED
+        self._add(name, 0, method, *_FIXED_DOS_TIME, zlib.crc32(data), len(payload), len(data), 0,
+                  0o600 << 16, payload)
+
+    def write_stream(self, name: str, chunks: Iterable[bytes], *, level: int = 1) -> int:
+        """Add a member whose content comes in ``chunks``; compression and writing happen in a worker
+        thread while the caller produces the next chunk. Returns the uncompressed size."""
+        fh = self._fh
+        offset = fh.tell()
+        encoded = self._encode_name(name)
+        flags = _UTF8_FLAG if not encoded.isascii() else 0
+        fh.write(_LOCAL.pack(b"PK\x03\x04", _VERSION, flags, zipfile.ZIP_DEFLATED, *_FIXED_DOS_TIME,
+                             0, 0, 0, len(encoded), 0) + encoded)
+        work: queue.Queue[bytes | None] = queue.Queue(maxsize=4)
+        state = {"crc": 0, "size": 0, "csize": 0, "error": None}
+        comp = zlib.compressobj(level, zlib.DEFLATED, -15)
+
+        def worker() -> None:
+            try:
+                while True:
+                    chunk = work.get()
+                    if chunk is None:
+                        tail = comp.flush()
+                        fh.write(tail)
+                        state["csize"] += len(tail)
+                        return
+                    state["crc"] = zlib.crc32(chunk, state["crc"])
+                    state["size"] += len(chunk)
+                    out = comp.compress(chunk)
+                    if out:
+                        fh.write(out)
+                        state["csize"] += len(out)
+            except BaseException as exc:  # noqa: BLE001 - handed to the producer below
+                state["error"] = exc
+                while work.get() is not None:
+                    pass
+
+        thread = threading.Thread(target=worker, name="tocsin-zip-deflate", daemon=True)
+        thread.start()
+        try:
+            for chunk in chunks:
+                if state["error"] is not None:
+                    break
+                if chunk:
+                    work.put(chunk)
+        finally:
+            work.put(None)
+            thread.join()
+        if state["error"] is not None:
+            raise state["error"]
+        size, csize, crc = state["size"], state["csize"], state["crc"]
+        if size >= _LIMIT32 or csize >= _LIMIT32 or offset >= _LIMIT32:
+            raise PackageError(f"part '{name}' would be 4 GiB or more; packages that large are not written")
+        end = fh.tell()
+        fh.seek(offset)
+        fh.write(_LOCAL.pack(b"PK\x03\x04", _VERSION, flags, zipfile.ZIP_DEFLATED, *_FIXED_DOS_TIME,
+                             crc, csize, size, len(encoded), 0))
+        fh.seek(end)
+        self._entries.append((encoded, Member(name, flags, zipfile.ZIP_DEFLATED, *_FIXED_DOS_TIME, crc,
+                                              csize, size, 0, 0o600 << 16, offset, encoded)))
+        return size
+
+    def close(self) -> None:
+        """Write the central directory and the end record."""
+        fh = self._fh
+        start = fh.tell()
+        for encoded, m in self._entries:
+            fh.write(_CENTRAL.pack(b"PK\x01\x02", _VERSION, _VERSION, m.flags, m.method, m.dos_time,
+                                   m.dos_date, m.crc, m.compress_size, m.file_size, len(encoded), 0, 0, 0,
+                                   m.internal_attr, m.external_attr, m.header_offset) + encoded)
+        end = fh.tell()
+        if len(self._entries) > 0xFFFF or end >= _LIMIT32:
+            raise PackageError("the package would need ZIP64 (4 GiB or 65,535 members); not written")
+        fh.write(_END.pack(b"PK\x05\x06", 0, 0, len(self._entries), len(self._entries), end - start,
+                           start, 0))
+
+    # -- internals -------------------------------------------------------------------------------
+    def _encode_name(self, name: str) -> bytes:
+        if name.casefold() in self._names:
+            raise PackageError(f"internal error: member '{name}' written twice")
+        self._names.add(name.casefold())
+        return name.encode("utf-8")
+
+    def _add(self, name: str, flags: int, method: int, dos_time: int, dos_date: int, crc: int,
+             csize: int, size: int, internal: int, external: int, payload: bytes,
+             raw_name: bytes | None = None) -> None:
+        encoded = self._encode_name(name)
+        if raw_name is not None:
+            encoded = raw_name
+        elif not encoded.isascii():
+            flags |= _UTF8_FLAG
+        offset = self._fh.tell()
+        if size >= _LIMIT32 or csize >= _LIMIT32 or offset >= _LIMIT32:
+            raise PackageError(f"part '{name}' or the package would be 4 GiB or more; not written")
+        self._fh.write(_LOCAL.pack(b"PK\x03\x04", _VERSION, flags, method, dos_time, dos_date, crc, csize,
+                                   size, len(encoded), 0) + encoded)
+        self._fh.write(payload)
+        self._entries.append((encoded, Member(name, flags, method, dos_time, dos_date, crc, csize, size,
+                                              internal, external, offset, encoded)))
