@@ -441,3 +441,8 @@ def test_any_input_gives_a_value_or_a_message(name, args, drop):
         assert "unexpected error" not in out, out
     else:
         assert isinstance(out, (list, float)), out
+
+
+def test_every_design_function_is_defined_and_exported():
+    assert WIRED == list(SIGNATURES)
+    assert sorted(U.__all__) == sorted(SIGNATURES)
