@@ -25,6 +25,7 @@ from __future__ import annotations
 
 import datetime as dt
 import math
+import textwrap
 from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -38,6 +39,8 @@ CAUTION = ("Caution: these are statistical forecasts from past data, not a subst
            "warnings, clinical or engineering judgement, or the procedures that apply where you work.")
 TABLE_COL = 9  # column J: the row-by-row table
 MAX_NOTES = 12
+WRAP = 105  # characters of text per row in the left panel (columns B..H)
+MAX_ROC_POINTS = 60
 
 
 @dataclass(frozen=True)
@@ -75,6 +78,12 @@ def _fmt_date_cell(v: Any) -> tuple[Any, str]:
     return (v, "date") if isinstance(v, (dt.date, dt.datetime)) else (v, "general")
 
 
+def _wrapped(label: str, text: str, fmt: str = "general", width: int = WRAP) -> list[tuple[Any, ...]]:
+    """A labelled text as rows of at most ``width`` characters, so it stays clear of the row table."""
+    lines = textwrap.wrap(text, width) or [""]
+    return [((label if i == 0 else "", "bold"), (line, fmt)) for i, line in enumerate(lines)]
+
+
 def forecast_sheet(ctx: SheetContext, ev: Evaluation, *, dates: np.ndarray | None, values: np.ndarray,
                    events: np.ndarray) -> SheetSpec:
     """The forecast sheet of one job that computed."""
@@ -107,11 +116,10 @@ def forecast_sheet(ctx: SheetContext, ev: Evaluation, *, dates: np.ndarray | Non
                         (Column(tuple(labels)), Column(tuple(words)),
                          Column(np.asarray(pr, dtype=float), "percent"))))
     r += len(labels) + 2
-    text_rows = [(("verdict", "bold"), (ev.verdict, "general")),
-                 (("caution", "bold"), (CAUTION, "italic"))]
+    text_rows = _wrapped("verdict", ev.verdict) + _wrapped("caution", CAUTION, "italic")
     notes = list(ctx.notes) + list(ev.notes)
     for i, note in enumerate(notes[:MAX_NOTES]):
-        text_rows.append((("notes" if i == 0 else "", "bold"), (note, "general")))
+        text_rows += _wrapped("notes" if i == 0 else "", note)
     if len(notes) > MAX_NOTES:
         text_rows.append((("", "general"), (f"... and {len(notes) - MAX_NOTES} more notes", "general")))
     blocks.append(Cells(r, 0, tuple(text_rows)))
@@ -265,7 +273,8 @@ _DIAGONAL = np.array([0.0, 1.0])
 def _reliability(blocks: list[Any], charts: list[ChartSpec], r: int, ev: Evaluation) -> int:
     tab = ev.reliability["table"]
     tab = tab[tab["count"] > 0]
-    blocks.append(Cells(r, 0, (("reliability of the logistic probabilities (validation period)", "bold"),),))
+    title = "reliability of the logistic probabilities (validation period)"
+    blocks.append(Cells(r, 0, (((title, "bold"),),)))
     t = Table(r + 1, 0, ("bin from", "bin to", "mean forecast", "observed frequency", "count", "diagonal"),
               (Column(tab["lower"].to_numpy(dtype=float), "percent"),
                Column(tab["upper"].to_numpy(dtype=float), "percent"),
@@ -292,6 +301,9 @@ def _roc(blocks: list[Any], charts: list[ChartSpec], r: int, ev: Evaluation) -> 
     far = np.asarray(roc.false_alarm_rate, dtype=float)
     hit = np.asarray(roc.hit_rate, dtype=float)
     thr = np.asarray(roc.threshold, dtype=float)
+    if len(far) > MAX_ROC_POINTS:  # a readable table: evenly spaced points, both ends kept
+        keep = np.unique(np.linspace(0, len(far) - 1, MAX_ROC_POINTS).round().astype(int))
+        far, hit, thr = far[keep], hit[keep], thr[keep]
     blocks.append(Cells(r, 0, ((("ROC points of the logistic probabilities (validation period)", "bold"),),)))
     diag = np.full(len(far), np.nan)
     diag[:2] = _DIAGONAL[:min(2, len(far))]

@@ -25,7 +25,7 @@ from typing import Any
 
 import numpy as np
 
-from sheetfns.errors import ConcurrentEditError, JobError, PackageError, TocsinError
+from sheetfns.errors import ConcurrentEditError, JobError, TocsinError
 
 VERSION = "0.1.0"
 Progress = Callable[[str], None] | None
@@ -79,6 +79,7 @@ class JobOutcome:
     profile: Any = None
     trend: Any = None
     notes: tuple[str, ...] = ()
+    unchanged: bool = False  # inputs as recorded at the last refresh: not recomputed, sheets kept
 
 
 def _digest(job_settings: Any, data: Any) -> str:
@@ -168,41 +169,58 @@ def _sheets_for(outcome: JobOutcome, refreshed_at: dt.datetime) -> list[Any]:
     return sheets
 
 
-def _job_report(o: JobOutcome, status: str | None = None) -> JobReport:
+def _summary(o: JobOutcome) -> dict[str, Any]:
+    """What the report says of a job, recorded in the state so an unchanged job reports it too."""
     from sheetfns.scorecard import METHOD_LABELS
 
     if o.error is not None:
-        return JobReport(o.name, "failed", o.error, sheet=o.sheet)
+        return {"error": o.error}
     ev = o.evaluation
-    nxt = None
-    best = ev.best
-    if best is not None and ev.last_observed + 1 < ev.n:
-        p = ev.headline()[best][1]
-        nxt = None if math.isnan(p) else p
-    period = None
+    best = METHOD_LABELS.get(ev.best) if ev.best else None
+    out: dict[str, Any] = {"verdict": ev.verdict, "best_method": best, "next_period": None,
+                           "next_probability": None}
     if ev.last_observed + 1 < ev.n:
         d = o.data.dates
-        period = (str(d[ev.last_observed + 1].astype("datetime64[D]")) if d is not None
-                  else f"row {ev.last_observed + 2}")
-    return JobReport(o.name, status or "ok", ev.verdict, next_forecast=nxt, next_period=period,
-                     best_method=METHOD_LABELS.get(best) if best else None, sheet=o.sheet, evaluation=ev)
+        out["next_period"] = (str(d[ev.last_observed + 1].astype("datetime64[D]")) if d is not None
+                              else f"row {ev.last_observed + 2}")
+        if ev.best is not None:
+            p = ev.headline()[ev.best][1]
+            out["next_probability"] = None if math.isnan(p) else p
+    return out
 
 
-def evaluate_book(path: Path, progress: Progress = None) -> tuple[Any, list[JobOutcome]]:
-    """Read the job table and compute every job (nothing is written). Returns (job table, outcomes)."""
+def _job_report(o: JobOutcome, records: dict[str, dict]) -> JobReport:
+    rec = _summary(o) if not o.unchanged else records.get(o.name, {})
+    status = "unchanged" if o.unchanged else "ok"
+    if o.error is not None or rec.get("error"):
+        return JobReport(o.name, "failed", o.error or rec.get("error", ""), sheet=o.sheet)
+    return JobReport(o.name, status, rec.get("verdict", ""), next_forecast=rec.get("next_probability"),
+                     next_period=rec.get("next_period"), best_method=rec.get("best_method"), sheet=o.sheet,
+                     evaluation=o.evaluation)
+
+
+def evaluate_book(path: Path, progress: Progress = None, *,
+                  known: dict[str, str] | None = None) -> tuple[Any, list[JobOutcome]]:
+    """Read the job table and compute every job (nothing is written). Returns (job table, outcomes).
+
+    ``known`` maps job names to the input fingerprints recorded at the last refresh: a job whose
+    fingerprint matches is not computed again (its outcome has ``unchanged`` set)."""
     from watcher import jobs as jobs_mod
     from watcher.reader import Book
 
+    known = known or {}
     outcomes: list[JobOutcome] = []
     with Book(path) as book:
         table = jobs_mod.read_job_table(book)
-        for err_row, errs in table.failed().items():
+        for errs in table.failed().values():
             name = next((e.job for e in errs if e.job), None)
             if name is None:
                 continue
             sheet, prof = jobs_mod.output_names(name)
             msg = "; ".join(e.message for e in errs)
-            outcomes.append(JobOutcome(None, name, sheet, prof, _digest(["error", msg], None), error=msg))
+            fp = _digest(["error", msg], None)
+            outcomes.append(JobOutcome(None, name, sheet, prof, fp, error=msg,
+                                       unchanged=known.get(name) == fp))
         for i, job in enumerate(table.jobs, 1):
             if progress:
                 progress(f"{path.name}: job {i}/{len(table.jobs)} '{job.name}'")
@@ -210,10 +228,15 @@ def evaluate_book(path: Path, progress: Progress = None) -> tuple[Any, list[JobO
                 data = book.read(job.data_sheet, job.columns, date_column=job.date_column,
                                  text_columns=job.text_columns)
             except TocsinError as exc:
-                outcomes.append(JobOutcome(job, job.name, job.output_sheet, job.profile_sheet,
-                                           _digest(dict(job.settings), None), error=str(exc)))
+                fp = _digest([dict(job.settings), str(exc)], None)
+                outcomes.append(JobOutcome(job, job.name, job.output_sheet, job.profile_sheet, fp,
+                                           error=str(exc), unchanged=known.get(job.name) == fp))
                 continue
             fp = _digest(dict(job.settings), data)
+            if known.get(job.name) == fp:
+                outcomes.append(JobOutcome(job, job.name, job.output_sheet, job.profile_sheet, fp,
+                                           unchanged=True))
+                continue
             try:
                 outcome = compute_job(job, data)
             except TocsinError as exc:
@@ -245,32 +268,40 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
                                     "left alone until it is closed")
     try:
         pkg = package.Package.open(path)
-        table, outcomes = evaluate_book(path, progress)
+        state = dict(pkg.state or {})
+        old: dict[str, dict] = state.get("jobs", {})
+        owned = {s.casefold() for s in pkg.owned}
+
+        def intact(name: str) -> bool:  # recorded, and its sheets still there and tocsin's
+            rec = old.get(name)
+            return rec is not None and all(s.casefold() in owned for s in rec.get("sheets", []))
+
+        known = {} if force else {n: r["fingerprint"] for n, r in old.items() if intact(n)}
+        table, outcomes = evaluate_book(path, progress, known=known)
     except (TocsinError, OSError) as exc:
         return done("failed", message=_message(exc))
-    state = dict(pkg.state or {})
-    old = state.get("jobs", {})
-    new = {o.name: {"fingerprint": o.fingerprint, "sheets": _names(o)} for o in outcomes}
-    owned = {s.casefold() for s in pkg.owned_sheets}
-    present = all(s.casefold() in owned for o in outcomes for s in _names(o))
-    if not force and old == new and present:
-        reports = tuple(_job_report(o, "unchanged") for o in outcomes)
-        return done("unchanged", reports, "inputs unchanged since the last refresh")
-    refreshed_at = dt.datetime.now().replace(microsecond=0)
-    sheets: list[Any] = []
-    for o in outcomes:
-        try:
-            sheets.extend(_sheets_for(o, refreshed_at))
-        except TocsinError as exc:  # a layout problem of one job must not stop the others
-            o = dataclasses.replace(o, error=f"could not lay out the sheet: {exc}")
-            sheets.extend(_sheets_for(o, refreshed_at))
-    wanted = {s.name.casefold() for s in sheets}
     disabled = {d.name for d in table.disabled if d.name}
-    keep = {s.casefold() for name in disabled for s in old.get(name, {}).get("sheets", [])}
-    remove = [s for s in pkg.owned_sheets if s.casefold() not in wanted and s.casefold() not in keep]
-    for name in disabled:
-        if name in old:
-            new[name] = old[name]
+    current = {o.name for o in outcomes} | (disabled & set(old))
+    if all(o.unchanged for o in outcomes) and current == set(old):
+        return done("unchanged", tuple(_job_report(o, old) for o in outcomes),
+                    "inputs unchanged since the last refresh")
+    refreshed_at = dt.datetime.now().replace(microsecond=0)
+    new: dict[str, dict] = {n: old[n] for n in disabled if n in old}  # a disabled job keeps its sheets
+    sheets: list[Any] = []
+    for i, o in enumerate(outcomes):
+        if o.unchanged:
+            new[o.name] = old[o.name]
+            continue
+        try:
+            specs = _sheets_for(o, refreshed_at)
+        except TocsinError as exc:  # a layout problem of one job must not stop the others
+            outcomes[i] = o = dataclasses.replace(o, error=f"could not lay out the sheet: {exc}")
+            specs = _sheets_for(o, refreshed_at)
+        sheets.extend(specs)
+        new[o.name] = {"fingerprint": o.fingerprint, "sheets": [sp.name for sp in specs],
+                       **_summary(o)}
+    keep = {s.casefold() for rec in new.values() for s in rec.get("sheets", [])}
+    remove = [s for s in pkg.owned if s.casefold() not in keep]
     state["jobs"] = new
     state["version"] = VERSION
     try:
@@ -278,10 +309,9 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
     except ConcurrentEditError as exc:
         return done("conflict", message=str(exc))
     except (TocsinError, OSError) as exc:
-        return done("failed", tuple(_job_report(o) for o in outcomes), _message(exc))
-    reports = tuple(_job_report(o) for o in outcomes)
-    msg = "; ".join(e.message for e in table.errors if not e.job) or ""
-    return done("refreshed", reports, msg)
+        return done("failed", tuple(_job_report(o, new) for o in outcomes), _message(exc))
+    msg = "; ".join(e.message for e in table.errors if not e.job)
+    return done("refreshed", tuple(_job_report(o, new) for o in outcomes), msg)
 
 
 def _names(o: JobOutcome) -> list[str]:
