@@ -31,7 +31,7 @@ except ImportError as _exc:  # pragma: no cover - exercised in a subprocess test
         "works without it.") from _exc
 
 from sheetfns import _coerce as c
-from sheetfns import benchmarks, events, logistic, profile, scores
+from sheetfns import benchmarks, events, logistic, partition, profile, scores
 from sheetfns.checks import same_length
 from sheetfns.errors import InputError
 
@@ -130,14 +130,19 @@ def EVENT_SHARE(events: Cells, window: Value = None, train_rows: Value = None,
 
 # ----------------------------------------------------------------------------------------- logistic
 def _logit(events: Cells, predictors: Cells, train_rows: Value, horizon: Value, lags: Value,
-           cycle: Value, harmonics: Value) -> logistic.LogitForecast:
+           cycle: Value, harmonics: Value, dates: Cells) -> logistic.LogitForecast:
     y = c.event_column(events, "events")
     named = None
     if not c.omitted(predictors):
         x, labels = c.number_table(predictors, "predictors", rows=y.size)
         named = {label: x[:, j] for j, label in enumerate(labels)}
+    d = None
+    if not c.omitted(dates):
+        d = c.date_column(dates, "dates")
+        same_length(events=y, dates=d)
     return logistic.forecast(
-        y, predictors=named,
+        y, predictors=named, dates=d,
+        weekday=d is not None and partition.infer_frequency(d) == "daily",
         train_size=c.option_int(train_rows, "train_rows", None, minimum=1),
         horizon=c.option_int(horizon, "horizon", 1, minimum=1),
         lags=c.option_int(lags, "lags", 1, minimum=0),
@@ -157,8 +162,10 @@ def _logit_args(f: Any) -> Any:
         ("cycle", "Optional: the length of a yearly (or other) cycle in rows, e.g. 365.25 for daily "
                   "data; blank = no cycle."),
         ("harmonics", "Optional: sine/cosine pairs describing the cycle (default 2)."),
+        ("dates", "Optional: the date column; the cycle then follows the calendar, and daily data get "
+                  "weekday terms, as on the watcher's forecast sheet."),
     ]):
-        f = xw.arg(name, ndim=2, doc=doc)(f) if name in ("events", "predictors") else \
+        f = xw.arg(name, ndim=2, doc=doc)(f) if name in ("events", "predictors", "dates") else \
             xw.arg(name, doc=doc)(f)
     return f
 
@@ -167,12 +174,12 @@ def _logit_args(f: Any) -> Any:
 @_logit_args
 @c.guarded
 def EVENT_LOGIT(events: Cells, predictors: Cells = None, train_rows: Value = None, horizon: Value = 1,
-                lags: Value = 1, cycle: Value = None, harmonics: Value = 2) -> Spill:
+                lags: Value = 1, cycle: Value = None, harmonics: Value = 2, dates: Cells = None) -> Spill:
     """Probability of the event from a logistic regression on past events, predictors and a cycle.
 
     Spills a column of probabilities, blank where it cannot forecast.
     Example: =EVENT_LOGIT(D2:D2930, , 2343)."""
-    fc = _logit(events, predictors, train_rows, horizon, lags, cycle, harmonics)
+    fc = _logit(events, predictors, train_rows, horizon, lags, cycle, harmonics, dates)
     if np.isnan(fc.prob).all():          # a column of blanks would not say why: show the notes
         raise InputError("no row could be forecast: " + "; ".join(fc.notes))
     return c.to_column(fc.prob)
@@ -182,12 +189,12 @@ def EVENT_LOGIT(events: Cells, predictors: Cells = None, train_rows: Value = Non
 @_logit_args
 @c.guarded
 def EVENT_LOGIT_COEFS(events: Cells, predictors: Cells = None, train_rows: Value = None,
-                      horizon: Value = 1, lags: Value = 1, cycle: Value = None, harmonics: Value = 2
-                      ) -> Spill:
+                      horizon: Value = 1, lags: Value = 1, cycle: Value = None, harmonics: Value = 2,
+                      dates: Cells = None) -> Spill:
     """The coefficients behind EVENT_LOGIT (same arguments): term, estimate, std_error, z, p, then notes.
 
     Spills a table with a header row. Example: =EVENT_LOGIT_COEFS(D2:D2930, , 2343)."""
-    fc = _logit(events, predictors, train_rows, horizon, lags, cycle, harmonics)
+    fc = _logit(events, predictors, train_rows, horizon, lags, cycle, harmonics, dates)
     t = fc.coefficients
     cols = ["term", "estimate", "std_error", "z", "p"]
     rows = [list(r) for r in t[cols].itertuples(index=False)]
@@ -226,8 +233,12 @@ def _pair(actual: Cells, forecast: Cells, forecast_name: str = "forecast"
 @xw.arg("actual", ndim=2, doc=_ACTUAL)
 @xw.arg("forecast", ndim=2, doc=_FORECAST)
 @xw.arg("probability", ndim=2, doc=_PROBABILITY)
+@xw.arg("reference", ndim=2, doc="Optional: the reference of brier_skill, a probability or a column of "
+                                 "them, e.g. EVENT_SHARE over the training rows (default: the share of "
+                                 "events in the scored rows).")
 @c.guarded
-def EVENT_SCORES(actual: Cells, forecast: Cells, probability: Cells = None) -> Spill:
+def EVENT_SCORES(actual: Cells, forecast: Cells, probability: Cells = None, reference: Cells = None
+                 ) -> Spill:
     """Score a 0/1 forecast (and optionally a probability) against what happened; blank rows skipped.
 
     Spills a two-column table: measure, value. Example: =EVENT_SCORES(C2000:C2930, D2000:D2930)."""
@@ -236,7 +247,18 @@ def EVENT_SCORES(actual: Cells, forecast: Cells, probability: Cells = None) -> S
     if not c.omitted(probability):
         p = c.prob_column(probability, "probability")
         same_length(actual=a, probability=p)
-        table.update(scores.probabilistic(a, p))
+        ref = None
+        if not c.omitted(reference):
+            cells = c.column_cells(reference, "reference")
+            if len(cells) == 1:
+                ref = c.option_float(cells[0], "reference", None)
+            else:
+                ref = c.prob_column(reference, "reference")
+                same_length(actual=a, reference=ref)
+        table.update(scores.probabilistic(a, p, reference=ref))
+    elif not c.omitted(reference):
+        raise InputError("`reference` needs `probability`: brier_skill compares a probability forecast "
+                         "with the reference; give the probability column too")
     return c.to_table(["measure", "value"], table.items())
 
 

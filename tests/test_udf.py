@@ -26,15 +26,19 @@ from sheetfns import udf as U
 
 ROOT = Path(__file__).resolve().parents[1]
 
-# DESIGN.md section 6: names and argument order are fixed; [optional] arguments in brackets.
+# DESIGN.md section 6: names and argument order are fixed; [optional] arguments in brackets. Two
+# trailing optional arguments extend section 6 so that the functions can give the watcher's numbers:
+# EVENT_LOGIT(..., [dates]) (calendar time axis, weekday terms for daily data) and
+# EVENT_SCORES(..., [reference]) (the reference forecast of brier_skill).
 SIGNATURES = {
     "EVENT_FLAG": "values, criterion, [min_run]",
     "EVENT_NAIVE": "events, [horizon], [season], [train_rows]",
     "EVENT_MAJORITY": "events, [window], [train_rows], [horizon]",
     "EVENT_SHARE": "events, [window], [train_rows], [horizon]",
-    "EVENT_LOGIT": "events, [predictors], [train_rows], [horizon], [lags], [cycle], [harmonics]",
-    "EVENT_LOGIT_COEFS": "events, [predictors], [train_rows], [horizon], [lags], [cycle], [harmonics]",
-    "EVENT_SCORES": "actual, forecast, [probability]",
+    "EVENT_LOGIT": "events, [predictors], [train_rows], [horizon], [lags], [cycle], [harmonics], [dates]",
+    "EVENT_LOGIT_COEFS": "events, [predictors], [train_rows], [horizon], [lags], [cycle], [harmonics], "
+                         "[dates]",
+    "EVENT_SCORES": "actual, forecast, [probability], [reference]",
     "EVENT_CONFUSION": "actual, forecast",
     "EVENT_BRIER": "actual, probability",
     "EVENT_RATE_TABLE": "dates, events, [by]",
@@ -267,6 +271,24 @@ def test_event_logit_and_coefs_equal_core(logit_data, train_rows, horizon, lags,
     assert [r[0] for r in out[k + 1:]] == [f"note: {n}" for n in fc.notes]
 
 
+@pytest.mark.parametrize("step_days, weekday", [(1, True), (7, False)])
+def test_event_logit_with_dates_equals_core(logit_data, step_days, weekday):
+    import datetime as dt
+
+    y, temp = logit_data
+    dates = [dt.date(2020, 1, 1) + dt.timedelta(days=step_days * i) for i in range(y.size)]
+    got = column(U.EVENT_LOGIT(cells(y), cells(temp), 300, 1, 1, 365.25 / step_days, 2,
+                               [[d] for d in dates]))
+    fc = logistic.forecast(y, predictors={"predictors 1": temp}, dates=dates, weekday=weekday,
+                           train_size=300, cycle=365.25 / step_days, harmonics=2)
+    np.testing.assert_allclose(got, fc.prob, rtol=0, atol=1e-12)
+    terms = [r[0] for r in U.EVENT_LOGIT_COEFS(cells(y), cells(temp), 300, 1, 1, 365.25 / step_days, 2,
+                                                [[d] for d in dates])[1:]]
+    assert ("Tuesday" in terms) is weekday        # daily data get weekday terms, as on the watcher's sheet
+    assert U.EVENT_LOGIT(cells(y), None, 300, 1, 1, None, 2, [[d] for d in dates[:-1]]).startswith(
+        "#tocsin: inputs must have the same length; `events` has")
+
+
 def test_event_logit_coefs_against_statsmodels(logit_data):
     import statsmodels.api as sm
 
@@ -340,6 +362,16 @@ def test_event_scores_equal_core_and_sklearn(data):
     # without the probability: the categorical scores only
     assert list(table(U.EVENT_SCORES(cells(a), cells(f)))) == list(scores.categorical(a, f))
     assert list(table(U.EVENT_SCORES(cells(a), cells(f), [[None]]))) == list(scores.categorical(a, f))
+
+
+def test_event_scores_reference(data):
+    a, f, p = data["actual"], data["forecast"], data["prob"]
+    share = benchmarks.majority_share(a, train_size=100)
+    got = table(U.EVENT_SCORES(cells(a), cells(f), cells(p), cells(share)))
+    assert got["brier_skill"] == scores.probabilistic(a, p, reference=share)["brier_skill"]
+    got = table(U.EVENT_SCORES(cells(a), cells(f), cells(p), 0.25))
+    assert got["brier_skill"] == scores.probabilistic(a, p, reference=0.25)["brier_skill"]
+    assert U.EVENT_SCORES(cells(a), cells(f), None, 0.25).startswith("#tocsin: `reference` needs")
 
 
 def test_event_confusion_layout_and_counts(data):
