@@ -1,0 +1,485 @@
+"""`tocsin refresh` end to end on the sample workbooks: the numbers in the sheets are the core's.
+
+For every job of every sample (copied to tmp_path first), the forecast and profile sheets written by
+``watcher.cli.main(["refresh", ...])`` are read back with two independent readers (openpyxl and
+python-calamine) and compared **exactly** (DESIGN.md §8: round-trip precision) with the core run
+directly on the data read by :mod:`watcher.reader`: the public benchmark functions
+(``sheetfns.benchmarks``), the public logistic forecast (``sheetfns.logistic.forecast``), the
+scorecard of ``sheetfns.scorecard.evaluate`` and ``sheetfns.profile.rate_table``. A second refresh
+rewrites nothing; appending rows moves "data through" and the next forecast.
+
+This module also holds the helpers the other refresh / CLI test modules use (workbook builder,
+sheet readers, the core reference).
+"""
+from __future__ import annotations
+
+import datetime as dt
+import json
+import os
+import shutil
+import subprocess
+import sys
+import textwrap
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import openpyxl
+import pytest
+import python_calamine
+
+from sheetfns import benchmarks, logistic, profile
+from sheetfns.events import flag
+from sheetfns.scorecard import METHOD_LABELS, SCORE_ROWS, Evaluation, Settings, evaluate
+from watcher import cli, jobs
+from watcher.layout import CAUTION, TABLE_COL
+from watcher.reader import Book
+
+ROOT = Path(__file__).resolve().parent.parent
+SAMPLES = ROOT / "sample_workbooks"
+SAMPLE_NAMES = ("island_ferry.xlsx", "bakery_sales.xlsx", "pump_station.xlsx")
+
+
+# ------------------------------------------------------------------------------- building workbooks
+
+def write_book(path: Path, sheets: dict[str, list[list[Any]]]) -> Path:
+    """A workbook written by xlsxwriter (an independent writer): every cell by its Python type, text
+    always as a string (so a criterion ``=1`` is text, never a formula), dates formatted yyyy-mm-dd."""
+    import xlsxwriter
+
+    wb = xlsxwriter.Workbook(str(path))
+    datef = wb.add_format({"num_format": "yyyy-mm-dd"})
+    for name, rows in sheets.items():
+        ws = wb.add_worksheet(name)
+        for r, row in enumerate(rows):
+            for c, v in enumerate(row):
+                if v is None:
+                    continue
+                if isinstance(v, bool):
+                    ws.write_boolean(r, c, v)
+                elif isinstance(v, (int, float)):
+                    ws.write_number(r, c, v)
+                elif isinstance(v, (dt.date, dt.datetime)):
+                    ws.write_datetime(r, c, v, datef)
+                else:
+                    ws.write_string(r, c, str(v))
+    wb.close()
+    return path
+
+
+def job_table(*specs: dict[str, Any]) -> list[list[Any]]:
+    """The rows of a job table: every setting as the header, then one row per job."""
+    return [list(jobs.SETTINGS)] + [[spec.get(s) for s in jobs.SETTINGS] for spec in specs]
+
+
+def quarter_end(year: int, quarter: int) -> dt.date:
+    month = 3 * quarter
+    return dt.date(year, month, 30 if month in (6, 9) else 31)
+
+
+def macrodata_rows(stop: int | None = None) -> list[list[Any]]:
+    """statsmodels' macrodata (US quarterly, 1959Q1-2009Q3; Federal Reserve Bank of St. Louis FRED,
+    compiled by S. Seabold, shipped in statsmodels.datasets.macrodata) as a data sheet: a header, then
+    the quarter-end date, real GDP, the unemployment rate and inflation per quarter."""
+    from statsmodels.datasets import macrodata
+
+    df = macrodata.load_pandas().data
+    if stop is not None:
+        df = df.iloc[:stop]
+    rows: list[list[Any]] = [["Quarter end", "Real GDP", "Unemployment", "Inflation"]]
+    for rec in df.itertuples():
+        rows.append([quarter_end(int(rec.year), int(rec.quarter)), float(rec.realgdp), float(rec.unemp),
+                     float(rec.infl)])
+    return rows
+
+
+GDP_JOB = {"job": "gdp fall", "data_sheet": "Macro", "date_column": "Quarter end",
+           "value_column": "Real GDP", "event": "fall"}
+
+
+def macro_book(path: Path, *specs: dict[str, Any], extra: dict[str, list[list[Any]]] | None = None,
+               stop: int | None = None) -> Path:
+    """A workbook with the macrodata sheet 'Macro' and a job table (default: one job, GDP falls)."""
+    sheets = {"Macro": macrodata_rows(stop), "tocsin": job_table(*(specs or (GDP_JOB,)))}
+    sheets.update(extra or {})
+    return write_book(path, sheets)
+
+
+# ------------------------------------------------------------------------------------ reading back
+
+def grid_openpyxl(path: Path, sheet: str) -> list[list[Any]]:
+    wb = openpyxl.load_workbook(path, read_only=True, data_only=True)
+    try:
+        return [list(r) for r in wb[sheet].iter_rows(values_only=True)]
+    finally:
+        wb.close()
+
+
+def grid_calamine(path: Path, sheet: str) -> list[list[Any]]:
+    wb = python_calamine.CalamineWorkbook.from_path(str(path))
+    rows = wb.get_sheet_by_name(sheet).to_python(skip_empty_area=False)
+    return [[None if v == "" else v for v in row] for row in rows]
+
+
+READERS = {"openpyxl": grid_openpyxl, "calamine": grid_calamine}
+
+
+def cell(grid: list[list[Any]], r: int, c: int) -> Any:
+    """0-based (row, column) of a grid, None outside it."""
+    return grid[r][c] if r < len(grid) and c < len(grid[r]) else None
+
+
+def floats(grid: list[list[Any]], c: int, r0: int, n: int) -> np.ndarray:
+    """Column c, rows r0..r0+n-1 as floats (blank -> NaN); text there fails the test."""
+    out = np.full(n, np.nan)
+    for i in range(n):
+        v = cell(grid, r0 + i, c)
+        if v is None:
+            continue
+        assert isinstance(v, (int, float)) and not isinstance(v, bool), \
+            f"row {r0 + i + 1}, column {c + 1}: expected a number, got {v!r}"
+        out[i] = v
+    return out
+
+
+def as_day(v: Any) -> np.datetime64:
+    if isinstance(v, (dt.date, dt.datetime)):
+        return np.datetime64(v).astype("datetime64[s]")
+    raise AssertionError(f"expected a date, got {v!r}")
+
+
+def find_row(grid: list[list[Any]], first: str, second: str | None = None, col: int = 0) -> int:
+    for r in range(len(grid)):
+        if cell(grid, r, col) == first and (second is None or cell(grid, r, col + 1) == second):
+            return r
+    raise AssertionError(f"no row starting {first!r}, {second!r}")
+
+
+def same(a: np.ndarray, b: np.ndarray, what: str) -> None:
+    """Exact equality with NaN = blank (round-trip precision, DESIGN.md §8)."""
+    a = np.asarray(a, dtype=float)
+    b = np.asarray(b, dtype=float)
+    assert a.shape == b.shape, f"{what}: shapes {a.shape} != {b.shape}"
+    bad = ~((a == b) | (np.isnan(a) & np.isnan(b)))
+    assert not bad.any(), f"{what}: first difference at {int(np.argmax(bad))}: {a[bad][:3]} != {b[bad][:3]}"
+
+
+# ------------------------------------------------------------------------------ the core reference
+
+@dataclass
+class Core:
+    """One job computed by the core, straight from the data the reader gives."""
+
+    job: jobs.Job
+    data: Any
+    events: np.ndarray
+    values: np.ndarray
+    ev: Evaluation
+    rates: Any
+
+
+def core_reference(path: Path, name: str) -> Core:
+    """Run the core on the job's data as DESIGN.md §3-§7 and DEVELOPERS.md describe it: events by the
+    criterion, the split of jobs.resolve, daily data with weekday terms, the value series as a
+    logistic input unless it is itself 0/1. The public benchmark and logistic functions are checked
+    against the Evaluation's methods on the way."""
+    with Book(path) as book:
+        table = jobs.read_job_table(book)
+        job = next(j for j in table.jobs if j.name == name)
+        data = book.read(job.data_sheet, job.columns, date_column=job.date_column,
+                         text_columns=job.text_columns)
+    job = jobs.resolve(job, data)
+    raw = data.raw[job.value_column] if job.text_columns else data.columns[job.value_column]
+    events = flag(raw, job.criterion, job.min_run)
+    values = data.columns.get(job.value_column)
+    obs = values[~np.isnan(values)] if values is not None else np.array([0.0])
+    use_values = values if obs.size and not np.isin(obs, (0.0, 1.0)).all() else None
+    predictors = {data.names[p]: data.columns[p] for p in job.predictors} or None
+    known = {data.names[p]: data.columns[p] for p in job.known_ahead} or None
+    settings = Settings(horizon=job.horizon, season=job.season, cycle=job.cycle, harmonics=job.harmonics,
+                        lags=job.lags, refit=job.refit, cutoff=job.cutoff,
+                        cost_false_alarm=job.cost_false_alarm, cost_miss=job.cost_miss,
+                        weekday=job.frequency == "daily")
+    ev = evaluate(events, train_size=job.train_size, settings=settings, dates=data.dates,
+                  values=use_values, predictors=predictors, known_ahead=known)
+    # The Evaluation carries the public functions' output (DESIGN.md §4), method by method.
+    h, n_train = job.horizon, job.train_size
+    public = {"naive": benchmarks.naive(events, horizon=h, train_size=n_train),
+              "naive_roll": benchmarks.naive(events, horizon=h),
+              "majority": benchmarks.majority_vote(events, train_size=n_train, horizon=h),
+              "majority_roll": benchmarks.majority_vote(events, horizon=h)}
+    if job.season > 1:
+        public["seasonal"] = benchmarks.naive(events, horizon=h, season=job.season, train_size=n_train)
+        public["seasonal_roll"] = benchmarks.naive(events, horizon=h, season=job.season)
+    for key, fc in public.items():
+        same(ev.method(key).forecast, fc, f"{name}: {key}")
+    same(ev.method("majority").prob, benchmarks.majority_share(events, train_size=n_train, horizon=h),
+         f"{name}: majority share")
+    lg = logistic.forecast(events, values=use_values, predictors=predictors, known_ahead=known,
+                           dates=data.dates, train_size=n_train, horizon=h, lags=job.lags,
+                           cycle=job.cycle, harmonics=job.harmonics, weekday=job.frequency == "daily",
+                           refit=job.refit)
+    same(ev.method("logistic").prob, lg.prob, f"{name}: logistic probability")
+    rates = None
+    if data.dates is not None:
+        by = {"quarterly": "quarter"}.get(job.frequency or "", "month")
+        rates = profile.rate_table(data.dates, events, by=by)
+    return Core(job, data, events, values if values is not None else events, ev, rates)
+
+
+# ------------------------------------------------------------------------------ the sheet vs the core
+
+def check_forecast_sheet(grid: list[list[Any]], core: Core, reader: str) -> None:
+    """Every number of a forecast sheet against the core (exact), and the texts that go with them."""
+    ev, data, job = core.ev, core.data, core.job
+    what = f"{job.name} ({reader})"
+    n = ev.n
+    # The row-by-row table: header in row 1 from column J, one row per data row.
+    labels = [m.label for m in ev.methods]
+    header = [cell(grid, 0, TABLE_COL + j) for j in range(4 + len(labels) + 1)]
+    assert header == ["date" if data.dates is not None else "row", data.names[job.value_column], "event",
+                      "period", *labels, "logistic probability"], what
+    assert cell(grid, n + 1, TABLE_COL + 3) is None or cell(grid, n + 1, TABLE_COL) is None, \
+        f"{what}: the row table is longer than the data"
+    if data.dates is not None:
+        got = np.array([as_day(cell(grid, 1 + i, TABLE_COL)) for i in range(n)])
+        assert (got == data.dates).all(), f"{what}: dates"
+    same(floats(grid, TABLE_COL + 1, 1, n), core.values, f"{what}: value column")
+    same(floats(grid, TABLE_COL + 2, 1, n), core.events, f"{what}: event column")
+    assert [cell(grid, 1 + i, TABLE_COL + 3) for i in range(n)] == ev.period.tolist(), f"{what}: periods"
+    for j, m in enumerate(ev.methods):
+        same(floats(grid, TABLE_COL + 4 + j, 1, n), m.forecast, f"{what}: {m.label}")
+    same(floats(grid, TABLE_COL + 4 + len(labels), 1, n), ev.method("logistic").prob,
+         f"{what}: logistic probability")
+    # Header block.
+    assert cell(grid, find_row(grid, "status"), 1) == "ok", what
+    through = cell(grid, find_row(grid, "data through"), 1)
+    assert as_day(through) == data.dates[ev.last_observed], f"{what}: data through"
+    # Headline: the next-period forecast per method.
+    r = find_row(grid, "method", "forecast")
+    head = ev.headline()
+    for i, m in enumerate(ev.methods):
+        assert cell(grid, r + 1 + i, 0) == m.label, what
+        same(floats(grid, 2, r + 1 + i, 1), [head[m.key][1]], f"{what}: headline {m.label}")
+        word = {1.0: "event", 0.0: "no event"}.get(head[m.key][0])
+        assert cell(grid, r + 1 + i, 1) == word, f"{what}: headline {m.label}"
+    if ev.last_observed + 1 < n:
+        nxt = str(data.dates[ev.last_observed + 1].astype("datetime64[D]"))
+        assert cell(grid, r - 1, 0) == f"next-period forecast for {nxt}", what
+    # The verdict and the caution, wrapped over rows of column B.
+    assert _wrapped_text(grid, "verdict") == ev.verdict, what
+    assert _wrapped_text(grid, "caution") == CAUTION, what
+    # The scorecard: methods as columns, rows in SCORE_ROWS order.
+    r = find_row(grid, "measure", labels[0])
+    assert [cell(grid, r, 1 + j) for j in range(len(labels))] == labels, what
+    for i, (key, label, _fmt, _better) in enumerate(SCORE_ROWS):
+        assert cell(grid, r + 1 + i, 0) == label, f"{what}: scorecard row {i}"
+        got = np.array([floats(grid, 1 + j, r + 1 + i, 1)[0] for j in range(len(labels))])
+        want = np.array([ev.scorecard[m.key].get(key, np.nan) for m in ev.methods])
+        same(got, want, f"{what}: scorecard {label}")
+    # Significance of the logistic model against the best benchmark.
+    c = ev.comparisons
+    if "logistic_vs_best_dm" in c:
+        r = find_row(grid, f"logistic vs {METHOD_LABELS[c['best_benchmark']]} (validation period)")
+        same(floats(grid, 1, r + 2, 2), [c["logistic_vs_best_mcnemar"], c["logistic_vs_best_dm"]],
+             f"{what}: statistics")
+        same(floats(grid, 2, r + 2, 2), [c["logistic_vs_best_mcnemar_p"], c["logistic_vs_best_dm_p"]],
+             f"{what}: p-values")
+    # Logistic coefficients.
+    coef = ev.coefficients
+    r = find_row(grid, "term", "estimate")
+    assert [cell(grid, r + 1 + i, 0) for i in range(len(coef))] == [str(t) for t in coef["term"]], what
+    for j, key in enumerate(("estimate", "std_error", "z", "p")):
+        same(floats(grid, 1 + j, r + 1, len(coef)), np.asarray(coef[key], dtype=float),
+             f"{what}: coefficient {key}")
+
+
+def _wrapped_text(grid: list[list[Any]], label: str) -> str:
+    r = find_row(grid, label)
+    lines = [cell(grid, r, 1)]
+    while cell(grid, r + len(lines), 0) in ("", None) and cell(grid, r + len(lines), 1):
+        nxt = cell(grid, r + len(lines), 1)
+        lines.append(nxt)
+    return " ".join(lines)
+
+
+def check_profile_sheet(grid: list[list[Any]], core: Core, reader: str) -> None:
+    """The rate table of the profile sheet against sheetfns.profile.rate_table (exact)."""
+    rates = core.rates
+    what = f"{core.job.name} profile ({reader})"
+    r = find_row(grid, rates.index.name)
+    years = [c for c in rates.columns if isinstance(c, (int, np.integer))]
+    head = [cell(grid, r, 1 + j) for j in range(len(years) + 1)]
+    assert head == [str(y) for y in years] + ["all years"], what
+    k = len(rates)
+    for j, y in enumerate(years):
+        same(floats(grid, 1 + j, r + 1, k), rates[y].to_numpy(dtype=float), f"{what}: {y}")
+    same(floats(grid, 1 + len(years), r + 1, k), rates["all years"].to_numpy(dtype=float), what)
+    hdr = [cell(grid, r, c) for c in range(len(grid[r]))]
+    for col in ("events", "rows"):
+        same(floats(grid, hdr.index(col), r + 1, k), rates[col].to_numpy(dtype=float), f"{what}: {col}")
+
+
+def check_book(path: Path, readers=READERS) -> dict[str, Core]:
+    """Every job of the workbook: its forecast and profile sheets against the core, by every reader."""
+    with Book(path) as book:
+        table = jobs.read_job_table(book)
+    assert table.ok, table.errors
+    cores = {}
+    for job in table.jobs:
+        core = core_reference(path, job.name)
+        cores[job.name] = core
+        for reader, read in readers.items():
+            check_forecast_sheet(read(path, job.output_sheet), core, reader)
+            if core.rates is not None:
+                check_profile_sheet(read(path, job.profile_sheet), core, reader)
+    return cores
+
+
+def run_cli(capsys, *argv: str) -> tuple[int, str, str]:
+    code = cli.main(list(argv))
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def file_state(path: Path) -> tuple[bytes, int]:
+    return path.read_bytes(), os.stat(path).st_mtime_ns
+
+
+# ------------------------------------------------------------------------------------------ fixtures
+
+@pytest.fixture(scope="module")
+def refreshed(tmp_path_factory) -> dict[str, Any]:
+    """The three samples copied to a temporary folder and refreshed by one in-process command."""
+    folder = tmp_path_factory.mktemp("samples")
+    paths = [shutil.copyfile(SAMPLES / n, folder / n) for n in SAMPLE_NAMES]
+    before = dt.datetime.now().replace(microsecond=0)
+    code = cli.main(["refresh", "--json", *map(str, paths)])
+    return {"code": code, "paths": [Path(p) for p in paths], "before": before,
+            "after": dt.datetime.now()}
+
+
+# --------------------------------------------------------------------------------------------- tests
+
+def test_refresh_of_every_sample_exits_0(refreshed, capsys):
+    assert refreshed["code"] == 0
+
+
+@pytest.mark.parametrize("name", SAMPLE_NAMES)
+def test_sheets_hold_the_cores_numbers(refreshed, name):
+    path = next(p for p in refreshed["paths"] if p.name == name)
+    cores = check_book(path)
+    for core in cores.values():
+        grid = grid_openpyxl(path, core.job.output_sheet)
+        stamp = cell(grid, find_row(grid, "refreshed at"), 1)
+        assert refreshed["before"] <= stamp <= refreshed["after"], stamp
+
+
+def test_output_sheets_are_tocsins_and_user_sheets_come_first(refreshed):
+    from watcher import package
+
+    for path in refreshed["paths"]:
+        pkg = package.Package.open(path)
+        with Book(path) as book:
+            table = jobs.read_job_table(book)
+        want = [s for j in table.jobs for s in (j.output_sheet, j.profile_sheet)]
+        assert sorted(pkg.owned) == sorted(want), path.name
+        original = package.Package.open(SAMPLES / path.name).sheet_names
+        assert pkg.sheet_names[:len(original)] == original
+        assert package.validate(path) == [], path.name
+
+
+def test_second_refresh_rewrites_nothing(refreshed, capsys):
+    states = {p: file_state(p) for p in refreshed["paths"]}
+    code, out, err = run_cli(capsys, "refresh", "--json", *map(str, refreshed["paths"]))
+    assert code == 0, err
+    report = json.loads(out)
+    assert [r["status"] for r in report] == ["unchanged"] * 3
+    assert all(j["status"] == "unchanged" for r in report for j in r["jobs"])
+    for p, st in states.items():
+        assert file_state(p) == st, f"{p.name} was rewritten"
+    # the unchanged report still says what the last refresh found
+    ferry = report[0]["jobs"][0]
+    assert ferry["next_period"] == "2025-01-01" and ferry["best_method"] in METHOD_LABELS.values()
+
+
+def test_console_entry_in_a_subprocess(tmp_path):
+    """`python -m watcher.cli refresh` as a scheduled run sees it: stdout a line per job, stderr empty
+    (not a terminal: no progress, no carriage returns), exit 0, the sheets the core's."""
+    path = Path(shutil.copyfile(SAMPLES / "pump_station.xlsx", tmp_path / "pump_station.xlsx"))
+    env = {**os.environ, "PYTHONPATH": str(ROOT)}
+    proc = subprocess.run([sys.executable, "-m", "watcher.cli", "refresh", str(path)], capture_output=True,
+                          text=True, timeout=120, env=env, cwd=tmp_path)
+    assert proc.returncode == 0, proc.stderr
+    assert proc.stderr == ""  # no "\r" progress when stderr is not a terminal
+    lines = proc.stdout.splitlines()
+    assert lines[0].startswith("pump_station.xlsx: refreshed in ")
+    assert lines[1].startswith("  high level alarm: ok; next period 2025-01-01: ")
+    check_book(path, {"calamine": grid_calamine})
+
+
+def test_progress_only_on_a_terminal(tmp_path, capsys, monkeypatch):
+    path = Path(shutil.copyfile(SAMPLES / "bakery_sales.xlsx", tmp_path / "b.xlsx"))
+    code, out, err = run_cli(capsys, "refresh", "--force", str(path))
+    assert code == 0 and err == "" and "\r" not in out
+    # with stderr a terminal the same run reports its progress there (and clears the line)
+    monkeypatch.setattr(sys.stderr, "isatty", lambda: True, raising=False)
+    code, out, err = run_cli(capsys, "refresh", "--force", str(path))
+    assert code == 0 and "\r" not in out
+    assert "\r" in err and "job 1/1 'sales fall'" in err
+
+
+def _append_quarters(path: Path, rows: list[list[Any]]) -> None:
+    """What a colleague does: open the workbook, add rows below the data, save (openpyxl rewrites the
+    whole file; tocsin's marker is a custom document property, which it keeps)."""
+    wb = openpyxl.load_workbook(path)
+    ws = wb["Macro"]
+    for row in rows:
+        ws.append(row)
+        ws.cell(ws.max_row, 1).number_format = "yyyy-mm-dd"
+    wb.save(path)
+
+
+def test_appending_rows_moves_data_through_and_the_next_forecast(tmp_path, capsys):
+    # macrodata up to 2007Q4 plus one blank future quarter; then the 2008 quarters arrive.
+    rows = macrodata_rows()
+    upto = 196  # 1959Q1 .. 2007Q4
+    data = rows[:1 + upto] + [[rows[1 + upto][0], None, None, None]]
+    path = write_book(tmp_path / "macro.xlsx", {"Macro": data, "tocsin": job_table(GDP_JOB)})
+    code, out, err = run_cli(capsys, "refresh", "--json", str(path))
+    assert code == 0, err
+    first = json.loads(out)[0]["jobs"][0]
+    assert first["next_period"] == "2008-03-31"
+    grid = grid_openpyxl(path, "gdp fall forecast")
+    assert as_day(cell(grid, find_row(grid, "data through"), 1)) == np.datetime64("2007-12-31")
+    # fill 2008Q1 and append 2008Q2-Q4 with a blank future quarter after them
+    wb = openpyxl.load_workbook(path)
+    ws = wb["Macro"]
+    last = ws.max_row
+    for j, v in enumerate(rows[1 + upto][1:], start=2):
+        ws.cell(last, j).value = v
+    wb.save(path)
+    _append_quarters(path, rows[2 + upto:5 + upto] + [[rows[5 + upto][0], None, None, None]])
+    code, out, err = run_cli(capsys, "refresh", "--json", str(path))
+    assert code == 0, err
+    rep = json.loads(out)[0]
+    assert rep["status"] == "refreshed"
+    job = rep["jobs"][0]
+    assert job["status"] == "ok" and job["next_period"] == "2009-03-31"
+    cores = check_book(path)
+    core = cores["gdp fall"]
+    grid = grid_openpyxl(path, "gdp fall forecast")
+    assert as_day(cell(grid, find_row(grid, "data through"), 1)) == np.datetime64("2008-12-31")
+    assert core.ev.n == upto + 5
+    best = core.ev.best
+    assert job["next_probability"] == core.ev.headline()[best][1]
+    assert job["best_method"] == METHOD_LABELS[best]
+
+
+def test_wrapped_text_reader_sees_long_texts():
+    # the helper that reassembles wrapped header texts (layout.WRAP characters per row)
+    text = "word " * 60
+    lines = textwrap.wrap(text, 105)
+    grid = [["verdict", lines[0]]] + [["", line] for line in lines[1:]] + [["caution", "x"]]
+    assert _wrapped_text(grid, "verdict") == " ".join(text.split())
