@@ -92,7 +92,6 @@ def main(argv: list[str] | None = None) -> int:
     args = parser.parse_args(argv)
 
     from watcher.refresh import refresh_workbook
-
     from watcher.watch import Watcher
     from watcher.watchlog import WatchLog
 

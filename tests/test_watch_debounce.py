@@ -140,8 +140,8 @@ def test_burst_of_events_gives_one_hand_over_after_quiet(rig):
     deb = make()
     for _ in range(10):
         deb.submit(BOOK)
+        last = time.monotonic()
         time.sleep(QUIET / 5)
-    last = time.monotonic()
     assert wait_for(lambda: rec.ready)
     time.sleep(2 * QUIET)
     assert rec.paths() == [BOOK]
@@ -318,3 +318,13 @@ def test_stop_drops_pending_paths_and_ends_the_thread(rig):
 def test_negative_quiet_is_refused():
     with pytest.raises(ValueError, match="`quiet` must be a number of seconds >= 0; got -1"):
         Debouncer(lambda p: None, quiet=-1)
+
+
+def test_size_and_mtime_look_adds_no_delay_to_the_quiet_wait(rig):
+    make, probe, rec = rig
+    deb = make(quiet=0.3)  # settle 0.2: first look at 0.1 s, second (equal) look at 0.3 s
+    deb.submit(BOOK)
+    submitted = time.monotonic()
+    assert wait_for(lambda: rec.ready)
+    assert 0.3 <= rec.ready[0][1] - submitted < 0.3 + 0.1
+    assert [kind for kind, _ in probe.looks].count("stat") == 2

@@ -10,8 +10,9 @@ Two parts, both free of threads' knowledge of file-system events:
   path. Every new event for a path restarts that path's wait. When a path has been quiet for ``quiet``
   seconds, the debouncer checks it through a ``FileProbe``: the file exists (else the path is dropped),
   no owner file says it is open (else it waits, polling, and says so once), size, mtime and inode are the
-  same at two looks ``settle`` seconds apart, and it opens as a complete zip package. Only then does it
-  hand the path on, once.
+  same at two looks ``settle`` seconds apart (the first taken ``settle`` seconds before the quiet wait
+  ends, so the check adds no delay), and it opens as a complete zip package. Only then does it hand the
+  path on, once.
 
 A ``FileProbe`` is the only part that touches the disk, so the debouncer can be tested with synthetic
 events and a fake probe.
@@ -144,7 +145,8 @@ class FileProbe:
 
 @dataclass
 class _Pending:
-    due: float
+    due: float  # when to look next
+    quiet_until: float  # the end of the quiet wait since the last event
     version: int = 0
     stat: Stat | None = None
     owner: Path | None = None
@@ -217,16 +219,22 @@ class Debouncer:
         with self._cond:
             if self._stopping:
                 return
-            due = time.monotonic() + wait
+            now = time.monotonic()
+            quiet_until, due = self._first_look(now, wait)
             state = self._pending.get(path)
             if state is None:
-                self._pending[path] = _Pending(due=due)
+                self._pending[path] = _Pending(due=due, quiet_until=quiet_until)
             else:
-                state.due = due
+                state.due, state.quiet_until = due, quiet_until
                 state.version += 1
                 state.stat = None
                 state.incomplete = 0
             self._cond.notify()
+
+    def _first_look(self, now: float, wait: float) -> tuple[float, float]:
+        """(end of the quiet wait, time of the first look): the first look at size/mtime is taken
+        ``settle`` seconds before the wait ends, so the second, at its end, adds no delay."""
+        return now + wait, now + max(wait - self._settle, 0.0)
 
     def pending(self) -> list[Path]:
         """The paths waiting now (to quiet down, to settle, or for their owner file to go)."""
@@ -301,16 +309,18 @@ class Debouncer:
                 self._on_waiting(path, owner)
             return
         if state.owner is not None:
-            if update(owner=None, stat=None, due=now() + self._quiet):
+            quiet_until, due = self._first_look(now(), self._quiet)
+            if update(owner=None, stat=None, due=due, quiet_until=quiet_until):
                 self._on_resumed(path)
             return
-        if stat != state.stat:
-            update(stat=stat, due=now() + self._settle)
+        if stat != state.stat:  # first look, or still changing: look again once quiet and settled
+            update(stat=stat, due=max(state.quiet_until, now() + self._settle))
             return
         if not self._probe.complete(path):
             tries = state.incomplete + 1
             if tries < self._incomplete_tries:
-                update(incomplete=tries, stat=None, due=now() + max(self._quiet, self._settle))
+                quiet_until, due = self._first_look(now(), max(self._quiet, self._settle))
+                update(incomplete=tries, stat=None, due=due, quiet_until=quiet_until)
                 return
             with self._cond:
                 if self._pending.get(path) is not state or state.version != version:
