@@ -18,7 +18,7 @@ import hashlib
 import json
 import math
 import time
-from collections.abc import Callable
+from collections.abc import Callable, Collection
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -80,6 +80,7 @@ class JobOutcome:
     trend: Any = None
     notes: tuple[str, ...] = ()
     unchanged: bool = False  # inputs as recorded at the last refresh: not recomputed, sheets kept
+    blocked: bool = False  # an output name is a user's sheet: nothing is written for this job
 
 
 def _digest(job_settings: Any, data: Any) -> str:
@@ -160,6 +161,8 @@ def _sheets_for(outcome: JobOutcome, refreshed_at: dt.datetime) -> list[Any]:
                     else "value"),
         event_text=_event_text(job, data) if job is not None else "",
         horizon=job.horizon if job is not None else 1, refreshed_at=refreshed_at, notes=outcome.notes)
+    if outcome.blocked:
+        return []
     if outcome.error is not None:
         return [layout.failed_sheet(ctx, outcome.error)]
     sheets = [layout.forecast_sheet(ctx, outcome.evaluation, dates=data.dates, values=outcome.values,
@@ -199,29 +202,54 @@ def _job_report(o: JobOutcome, records: dict[str, dict]) -> JobReport:
                      evaluation=o.evaluation)
 
 
-def evaluate_book(path: Path, progress: Progress = None, *,
-                  known: dict[str, str] | None = None) -> tuple[Any, list[JobOutcome]]:
+def _blocked(name: str, row: int, sheets: tuple[str, ...], taken: set[str],
+             known: dict[str, str]) -> JobOutcome | None:
+    """The outcome of a job one of whose output sheets is a user's sheet (None when none is)."""
+    clash = next((s for s in sheets if s.casefold() in taken), None)
+    if clash is None:
+        return None
+    msg = (f"sheet {clash!r} is not tocsin's (tocsin did not create it), so tocsin does not write "
+           f"over it: rename that sheet, or set another `output_sheet` in row {row} of sheet tocsin")
+    fp = _digest(["blocked", clash, msg], None)
+    return JobOutcome(None, name, sheets[0], sheets[-1], fp, error=msg, blocked=True,
+                      unchanged=known.get(name) == fp)
+
+
+def evaluate_book(path: Path, progress: Progress = None, *, known: dict[str, str] | None = None,
+                  taken: Collection[str] = ()) -> tuple[Any, list[JobOutcome]]:
     """Read the job table and compute every job (nothing is written). Returns (job table, outcomes).
 
     ``known`` maps job names to the input fingerprints recorded at the last refresh: a job whose
-    fingerprint matches is not computed again (its outcome has ``unchanged`` set)."""
+    fingerprint matches is not computed again (its outcome has ``unchanged`` set). ``taken`` holds
+    the names of the user's sheets: a job whose output sheet is one of them fails without a sheet
+    (``blocked``), and the other jobs go on."""
     from watcher import jobs as jobs_mod
     from watcher.reader import Book
 
     known = known or {}
+    taken = {t.casefold() for t in taken}
     outcomes: list[JobOutcome] = []
     with Book(path) as book:
         table = jobs_mod.read_job_table(book)
-        for errs in table.failed().values():
+        for row, errs in table.failed().items():
             name = next((e.job for e in errs if e.job), None)
             if name is None:
                 continue
             sheet, prof = jobs_mod.output_names(name)
+            blocked = _blocked(name, row, (sheet,), taken, known)
+            if blocked is not None:
+                outcomes.append(blocked)
+                continue
             msg = "; ".join(e.message for e in errs)
             fp = _digest(["error", msg], None)
             outcomes.append(JobOutcome(None, name, sheet, prof, fp, error=msg,
                                        unchanged=known.get(name) == fp))
         for i, job in enumerate(table.jobs, 1):
+            sheets = (job.output_sheet,) + ((job.profile_sheet,) if job.date_column is not None else ())
+            blocked = _blocked(job.name, job.row, sheets, taken, known)
+            if blocked is not None:
+                outcomes.append(dataclasses.replace(blocked, job=job, profile_sheet=job.profile_sheet))
+                continue
             if progress:
                 progress(f"{path.name}: job {i}/{len(table.jobs)} '{job.name}'")
             try:
@@ -277,7 +305,8 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
             return rec is not None and all(s.casefold() in owned for s in rec.get("sheets", []))
 
         known = {} if force else {n: r["fingerprint"] for n, r in old.items() if intact(n)}
-        table, outcomes = evaluate_book(path, progress, known=known)
+        users = [s for s in pkg.sheet_names if s.casefold() not in owned]
+        table, outcomes = evaluate_book(path, progress, known=known, taken=users)
     except (TocsinError, OSError) as exc:
         return done("failed", message=_message(exc))
     disabled = {d.name for d in table.disabled if d.name}
@@ -312,12 +341,6 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
         return done("failed", tuple(_job_report(o, new) for o in outcomes), _message(exc))
     msg = "; ".join(e.message for e in table.errors if not e.job)
     return done("refreshed", tuple(_job_report(o, new) for o in outcomes), msg)
-
-
-def _names(o: JobOutcome) -> list[str]:
-    if o.error is not None:
-        return [o.sheet]
-    return [o.sheet] + ([o.profile_sheet] if o.profile is not None else [])
 
 
 def _message(exc: BaseException) -> str:
@@ -362,7 +385,10 @@ def check_workbook(path: Path | str, *, progress: Progress = None) -> CheckResul
     path = Path(path)
     try:
         problems = tuple(package.validate(path))
-        table, outcomes = evaluate_book(path, progress)
+        pkg = package.Package.open(path)
+        owned = {s.casefold() for s in pkg.owned}
+        users = [s for s in pkg.sheet_names if s.casefold() not in owned]
+        table, outcomes = evaluate_book(path, progress, taken=users)
     except (TocsinError, OSError) as exc:
         return CheckResult(path, error=_message(exc))
     return CheckResult(path, table, tuple(outcomes), problems)
