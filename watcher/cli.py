@@ -104,6 +104,8 @@ def _cmd_check(args: argparse.Namespace) -> int:
     if sys.stderr.isatty():
         sys.stderr.write("\r\x1b[K")
     print(report.check_text(result))
+    for line in report.check_errors(result):
+        print(f"error: {line}", file=sys.stderr)
     return 0 if result.ok else 1
 
 
@@ -116,8 +118,10 @@ def _cmd_refresh(args: argparse.Namespace) -> int:
         if sys.stderr.isatty():
             sys.stderr.write("\r\x1b[K")
         reports.append(rep)
-        if not args.json:
+        if not args.json and not (rep.status == "failed" and not rep.jobs):
             print(report.refresh_text(rep))
+        for line in report.refresh_errors(rep):
+            print(f"error: {line}", file=sys.stderr)
     if args.json:
         print(json.dumps([report.refresh_dict(r) for r in reports], indent=2))
     return 0 if all(r.ok for r in reports) else 1

@@ -26,6 +26,14 @@ def refresh_text(rep: Any) -> str:
     return "\n".join(lines)
 
 
+def refresh_errors(rep: Any) -> list[str]:
+    """The errors of a refresh, one line each, for stderr: the workbook's, then each failed job's."""
+    name = rep.path.name
+    out = [f"{name}: {rep.message}"] if rep.status == "failed" else []
+    out += [f"{name}: job {j.name!r}: {j.message}" for j in rep.jobs if j.status == "failed"]
+    return out
+
+
 def refresh_dict(rep: Any) -> dict[str, Any]:
     """A machine-readable report for scheduled runs."""
     def clean(x: Any) -> Any:
@@ -69,24 +77,32 @@ def scorecard_text(ev: Any) -> str:
     return "\n".join(out)
 
 
-def check_text(result: Any) -> str:
-    """The report of ``tocsin check``."""
+def check_errors(result: Any) -> list[str]:
+    """The errors ``tocsin check`` found, one line each (for stderr): the workbook's, the package's
+    structural problems, the job table's rows, then each job that could not be computed."""
     name = result.path.name
     if result.error:
-        return f"{name}: error: {result.error}"
+        return [f"{name}: {result.error}"]
+    lines = [f"{name}: package problem: {p}" for p in result.problems]
+    lines += [f"{name}: {e.message}" for e in result.table.errors]
+    lines += [f"{name}: job {o.name!r}: {o.error}" for o in result.outcomes
+              if o.error and (o.job is not None or o.blocked)]
+    return lines
+
+
+def check_text(result: Any) -> str:
+    """The report of ``tocsin check`` (stdout): per job its scorecard and verdict, then the status.
+    The errors are :func:`check_errors` (stderr)."""
+    name = result.path.name
+    if result.error:
+        return f"{name}: problems found"
     lines = []
-    for p in result.problems:
-        lines.append(f"{name}: package problem: {p}")
     table = result.table
-    for e in table.errors:
-        lines.append(f"{name}: error: {e.message}")
     for d in table.disabled:
         lines.append(f"{name}: job {d.name!r} (row {d.row}) is disabled")
     for o in result.outcomes:
-        if o.job is None:
-            continue
         if o.error:
-            lines.append(f"{name}: job {o.name!r}: error: {o.error}")
+            lines.append(f"{name}: job {o.name!r}: not computed (see the error)")
             continue
         ev = o.evaluation
         lines.append("")
