@@ -103,8 +103,9 @@ def forecast_sheet(ctx: SheetContext, ev: Evaluation, *, dates: np.ndarray | Non
     blocks.append(Cells(0, 0, tuple(head)))
     r = len(head) + 1
     # Headline: the next-period forecast per method.
-    when = "" if next_date is None else (f" for {next_date:%Y-%m-%d}" if isinstance(next_date, dt.date)
-                                          else f" for {next_date}")
+    when = (": none, the data end with an observed period (add the next date with a blank value)"
+            if next_date is None else f" for {next_date:%Y-%m-%d}" if isinstance(next_date, dt.date)
+            else f" for {next_date}")
     blocks.append(Cells(r, 0, (((f"next-period forecast{when}", "bold"),),)))
     r += 1
     headline = ev.headline()
