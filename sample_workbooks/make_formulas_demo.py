@@ -300,6 +300,9 @@ def formulas_demo_bytes() -> bytes:
     buf = io.BytesIO()
     wb = xlsxwriter.Workbook(buf, {"in_memory": True, "strings_to_numbers": False,
                                    "strings_to_formulas": False})
+    # No fullCalcOnLoad flag: a program without the add-in then shows the values saved with the
+    # formulas instead of #NAME? (Excel recalculates anyway: the file's calcId is older than its own).
+    wb.calc_on_load = False
     wb.set_properties({"title": "tocsin sample: spreadsheet functions", "author": "tocsin sample generator",
                        "created": FIXED_TIME})
     bold = wb.add_format({"bold": True})

@@ -236,3 +236,22 @@ def test_rate_table_equals_the_watchers_profile_sheet(demo, watcher_sheets):
         for name, v in zip(names[1:], row[1:], strict=True):
             theirs = profile.cell(row=h + 1 + i, column=header.index(name) + 1).value
             assert _close(v, theirs), (months[i], name, v, theirs)
+
+
+@pytest.mark.libreoffice
+def test_libreoffice_opens_the_demo(demo, tmp_path):
+    """The package opens in a real spreadsheet program. LibreOffice has no tocsin functions, so it
+    shows #NAME? in the formula cells (the About sheet says so); the data and settings are intact."""
+    import libreoffice  # tests/libreoffice.py
+
+    _, values = demo
+    sheets = libreoffice.sheets_as_csv(DEMO, tmp_path)
+    assert {"About", "Passengers", "Scores", "Profile", "xlwings.conf"} <= set(sheets)
+    rows = sheets["Passengers"]
+    assert rows[0][:5] == ["Date", "Passengers", "Wind (m/s)", "", "event"]
+    ws = values["Passengers"]
+    shown = [r[1] for r in rows[1:2930]]
+    expected = ["" if ws.cell(row=i, column=2).value is None else str(ws.cell(row=i, column=2).value)
+                for i in range(2, 2931)]
+    assert shown == expected
+    assert sheets["xlwings.conf"][0][:2] == ["UDF Modules", "sheetfns.udf"]
