@@ -255,3 +255,12 @@ def test_libreoffice_opens_the_demo(demo, tmp_path):
                 for i in range(2, 2931)]
     assert shown == expected
     assert sheets["xlwings.conf"][0][:2] == ["UDF Modules", "sheetfns.udf"]
+
+
+def test_demo_package_validates_against_office_open_xml():
+    # ECMA-376 schema and package rules, checked by openxml-audit (a general-purpose OOXML validator)
+    import subprocess
+
+    proc = subprocess.run([sys.executable, "-m", "openxml_audit", "-f", "microsoft365", str(DEMO)],
+                          capture_output=True, text=True, timeout=120)
+    assert proc.returncode == 0 and "Errors: 0" in proc.stdout, proc.stdout + proc.stderr
