@@ -197,3 +197,16 @@ def test_log_lines_and_json_records(tmp_path):
                                      "next_forecast": None, "best_method": "majority vote"}
     assert records[1]["status"] == "unchanged"
     assert records[2]["owner_file"] == "/share/~$bakery.xlsx"
+
+
+def test_importing_the_watcher_stays_light():
+    # `tocsin --help` builds the watch parser: no watchdog or computation stack until it starts
+    import subprocess
+    import sys
+
+    code = ("import sys, watcher.watch; print(sorted(m for m in ('watchdog', 'pandas', 'statsmodels', "
+            "'numpy', 'scipy', 'watcher.refresh') if m in sys.modules))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60,
+                         cwd=Path(__file__).resolve().parent.parent)
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.strip() == "[]"
