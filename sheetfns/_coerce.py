@@ -140,6 +140,28 @@ def numbers(cells: Sequence[Any], name: str, *, keep_text: bool = False) -> np.n
     kinds = set(map(type, cells))
     if all(_is_numeric_type(k) for k in kinds):
         return np.array(cells, dtype=float).reshape(-1)
+    if all(_is_numeric_type(k) or k is str for k in kinds):
+        # numbers and text (blank text is how the add-in hands back another function's blanks):
+        # look at the text cells only
+        vals = list(cells)
+        text_at = []
+        for i in np.flatnonzero(np.fromiter((type(v) is str for v in cells), bool, len(cells))).tolist():
+            num = text_number(vals[i])
+            if num is not None:
+                vals[i] = num
+            elif vals[i].strip() == "":
+                vals[i] = None
+            elif keep_text:
+                text_at.append(i)
+                vals[i] = None
+            else:
+                raise _cell_error(name, i, "numbers", cells[i])
+        arr = np.array(vals, dtype=float).reshape(-1)
+        if not text_at:
+            return arr
+        obj = arr.astype(object)
+        obj[text_at] = [cells[i] for i in text_at]
+        return obj
     out = np.empty(len(cells), dtype=object if keep_text else float)
     has_text = False
     for i, v in enumerate(cells):

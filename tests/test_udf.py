@@ -345,6 +345,16 @@ def test_event_rate_table_dates_as_serial_numbers_and_errors(data):
         "#tocsin: `by` must be one of 'month', 'week', 'weekday', 'quarter'; got 'fortnight'")
 
 
+def test_blank_text_from_another_function_is_a_blank(data):
+    # The add-in writes a returned None as "" (xlwings/_xlwindows.py, prepare_xl_data_element), so a
+    # range holding another function's blanks arrives as "" cells; they must read as blanks.
+    flags = U.EVENT_FLAG(cells(data["values"]), ">=1150")
+    as_written = [["" if r[0] is None else r[0]] for r in flags]
+    assert U.EVENT_NAIVE(as_written, 1, 7) == U.EVENT_NAIVE(flags, 1, 7)
+    assert U.EVENT_SHARE(as_written) == U.EVENT_SHARE(flags)
+    assert U.EVENT_FLAG(as_written, "=1") == U.EVENT_FLAG(flags, "=1")
+
+
 def test_event_scores_equal_core_and_sklearn(data):
     from sklearn.metrics import brier_score_loss, confusion_matrix, roc_auc_score
 

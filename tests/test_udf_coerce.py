@@ -93,6 +93,35 @@ def test_numbers_match_the_cell_by_cell_reference(cells):
     np.testing.assert_array_equal(c.numbers(cells, "values"), _naive_numbers(cells))
 
 
+def _naive_numbers_with_text(cells):
+    """Slow reference for the documented text rules: plain numbers read, blank text missing, other
+    text kept."""
+    out = []
+    for v in cells:
+        if isinstance(v, str):
+            t = v.strip()
+            if t == "":
+                out.append(math.nan)
+            elif re.fullmatch(r"[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?", t):
+                out.append(float(t))
+            else:
+                out.append(v)
+        else:
+            out.extend(_naive_numbers([v]).tolist())
+    return out
+
+
+@given(st.lists(st.one_of(st.none(), st.booleans(), st.floats(allow_nan=False, allow_infinity=False),
+                          st.sampled_from(["", "  ", "12", " -3.5 ", "1e3", ".5", "x", "1,5", "5%"])),
+                max_size=60))
+def test_numbers_with_text_match_the_reference(cells):
+    got = c.numbers(cells, "values", keep_text=True).tolist()
+    ref = _naive_numbers_with_text(cells)
+    assert len(got) == len(ref)
+    for a, b in zip(got, ref, strict=True):
+        assert (a == b) or (a != a and b != b), (a, b)
+
+
 def test_dates_from_datetimes_serials_and_iso_text():
     from openpyxl.utils.datetime import from_excel  # reference: openpyxl's 1900-date-system conversion
 
