@@ -239,9 +239,9 @@ def profile_sheet(ctx: SheetContext, table: Any, trend: Any, ev: Evaluation | No
         cols.append(Column(table[y].to_numpy(dtype=float), "percent"))
     header.append("all years")
     cols.append(Column(table["all years"].to_numpy(dtype=float), "percent"))
-    if trend is not None:
+    if trend is not None:  # a polynomial fit may leave [0, 1]; a share shown below 0% misleads
         header.append("trend")
-        cols.append(Column(np.asarray(trend, dtype=float), "percent"))
+        cols.append(Column(np.clip(np.asarray(trend, dtype=float), 0.0, 1.0), "percent"))
     header += ["events", "rows"]
     cols += [Column(table["events"].to_numpy(dtype=float), "integer"),
              Column(table["rows"].to_numpy(dtype=float), "integer")]
