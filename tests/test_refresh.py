@@ -177,6 +177,7 @@ class Core:
     values: np.ndarray
     ev: Evaluation
     rates: Any
+    trend: Any = None
 
 
 def core_reference(path: Path, name: str) -> Core:
@@ -221,11 +222,12 @@ def core_reference(path: Path, name: str) -> Core:
                            cycle=job.cycle, harmonics=job.harmonics, weekday=job.frequency == "daily",
                            refit=job.refit)
     same(ev.method("logistic").prob, lg.prob, f"{name}: logistic probability")
-    rates = None
+    rates = trend = None
     if data.dates is not None:
         by = {"quarterly": "quarter"}.get(job.frequency or "", "month")
         rates = profile.rate_table(data.dates, events, by=by)
-    return Core(job, data, events, values if values is not None else events, ev, rates)
+        trend = profile.seasonal_trend(rates, degree=2)
+    return Core(job, data, events, values if values is not None else events, ev, rates, trend)
 
 
 # ------------------------------------------------------------------------------ the sheet vs the core
@@ -319,6 +321,8 @@ def check_profile_sheet(grid: list[list[Any]], core: Core, reader: str) -> None:
         same(floats(grid, 1 + j, r + 1, k), rates[y].to_numpy(dtype=float), f"{what}: {y}")
     same(floats(grid, 1 + len(years), r + 1, k), rates["all years"].to_numpy(dtype=float), what)
     hdr = [cell(grid, r, c) for c in range(len(grid[r]))]
+    if core.trend is not None:  # the seasonal trend, a share: kept within [0, 1] on the sheet
+        same(floats(grid, hdr.index("trend"), r + 1, k), np.clip(core.trend.to_numpy(), 0, 1), what)
     for col in ("events", "rows"):
         same(floats(grid, hdr.index(col), r + 1, k), rates[col].to_numpy(dtype=float), f"{what}: {col}")
 
