@@ -101,6 +101,12 @@ def _scalar_serial(value, date1904: bool) -> float | None:
     return None if bad[0] or math.isnan(serial[0]) else float(serial[0])
 
 
+def _iso(value) -> str:
+    """ISO text of a date a date system cannot hold: '1850-06-01' or '1850-06-01T12:30:00'."""
+    text = str(np.datetime64(value, "s"))
+    return text[:-9] if text.endswith("T00:00:00") else text
+
+
 def _is_date(v) -> bool:
     return isinstance(v, (_dt.date, np.datetime64))
 
@@ -108,7 +114,7 @@ def _is_date(v) -> bool:
 def _num_text(v: float) -> str | None:
     if not math.isfinite(v):
         return None
-    if v == int(v) and abs(v) < 2**53 and not (v == 0 and math.copysign(1, v) < 0):
+    if v == int(v) and abs(v) <= 2**53 and not (v == 0 and math.copysign(1, v) < 0):
         return str(int(v))
     return repr(float(v))
 
@@ -154,7 +160,7 @@ class _Styles:
             if serial is None:
                 if isinstance(value, np.datetime64) and np.isnat(value):
                     return self.blank(sid)
-                return self.text(sid, str(np.datetime64(value, "s")).replace("T00:00:00", ""))
+                return self.text(sid, _iso(value))
             return self.number(sid, _num_text(serial))
         try:
             number = float(value)
@@ -207,7 +213,7 @@ def _numeric_pieces(x: np.ndarray, sid: int, suffix: str) -> list[str] | np.ndar
     xf = x if all_finite else x[finite]
     if xf.size == 0:
         return [blank] * len(x)
-    integral = bool(np.all(xf == np.trunc(xf))) and float(np.max(np.abs(xf))) < 2.0**53
+    integral = bool(np.all(xf == np.trunc(xf))) and float(np.max(np.abs(xf))) <= 2.0**53
     if integral and np.any((xf == 0) & np.signbit(xf)):
         integral = False  # keep -0.0 as written by repr
     if integral:
@@ -221,11 +227,18 @@ def _numeric_pieces(x: np.ndarray, sid: int, suffix: str) -> list[str] | np.ndar
         fmt = pre + "%d" + post
     else:
         fmt = pre + "%r" + post
-    if all_finite:
-        return list(map(fmt.__mod__, x.tolist()))
-    out = list(map(fmt.__mod__, np.where(finite, x, 0.0).tolist()))
-    for i in np.flatnonzero(~finite).tolist():
-        out[i] = blank
+    clean = x if all_finite else np.where(finite, x, 0.0)
+    out = list(map(fmt.__mod__, clean.tolist()))
+    if not integral:  # integers among other numbers: '3', not '3.0'
+        whole = np.flatnonzero((clean == np.trunc(clean)) & (np.abs(clean) <= 2.0**53) & finite
+                               & ~((clean == 0) & np.signbit(clean)))
+        if whole.size:
+            fmt_d = pre + "%d" + post
+            for i, text in zip(whole.tolist(), map(fmt_d.__mod__, clean[whole].tolist()), strict=True):
+                out[i] = text
+    if not all_finite:
+        for i in np.flatnonzero(~finite).tolist():
+            out[i] = blank
     return out
 
 
@@ -262,7 +275,7 @@ class _ColumnWriter:
                     out = list(out)
                     for i in bad.tolist():
                         v = col.values[start + i]
-                        out[i] = self.styles.text(self.sid, str(np.datetime64(v, "s"))) + suffix
+                        out[i] = self.styles.text(self.sid, _iso(v)) + suffix
         if col.bold is not None:
             idx = np.flatnonzero(col.bold[start:stop])
             if idx.size:
