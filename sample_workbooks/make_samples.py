@@ -352,6 +352,15 @@ def main(argv: list[str] | None = None) -> int:
         return 2
     for path in write_samples(args[0] if args else None):
         print(path)
+    # The spreadsheet-function demo is built with xlsxwriter (the test extra) and tocsin's own
+    # functions for its cached values; without them the three refresh samples are still written.
+    sys.path.insert(0, str(Path(__file__).resolve().parent))
+    try:
+        from make_formulas_demo import write_formulas_demo
+    except ImportError as exc:
+        print(f"formulas_demo.xlsx not rebuilt ({exc}); install '.[test]' to rebuild it", file=sys.stderr)
+    else:
+        print(write_formulas_demo(args[0] if args else None))
     return 0
 
 
