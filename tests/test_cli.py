@@ -12,9 +12,7 @@ from __future__ import annotations
 
 import inspect
 import json
-import zipfile
 from pathlib import Path
-from xml.etree import ElementTree
 
 import openpyxl
 import pytest
@@ -30,30 +28,17 @@ from test_refresh import (
     macro_book,
     macrodata_rows,
     run_cli,
+    sheet_part_bytes,
     write_book,
 )
 
 from sheetfns.scorecard import METHOD_LABELS, SCORE_ROWS
 from watcher import package
 
-NS = {"m": "http://schemas.openxmlformats.org/spreadsheetml/2006/main",
-      "r": "http://schemas.openxmlformats.org/officeDocument/2006/relationships"}
-
 
 def no_traceback(*texts: str) -> None:
     for t in texts:
         assert "Traceback" not in t, t
-
-
-def sheet_part_bytes(path: Path, name: str) -> bytes:
-    """The bytes of the package part of sheet ``name`` (ECMA-376 Part 1 §12.3.23: workbook ->
-    relationship -> worksheet part)."""
-    with zipfile.ZipFile(path) as z:
-        book = ElementTree.fromstring(z.read("xl/workbook.xml"))
-        rid = next(s.get(f"{{{NS['r']}}}id") for s in book.find("m:sheets", NS) if s.get("name") == name)
-        rels = ElementTree.fromstring(z.read("xl/_rels/workbook.xml.rels"))
-        target = next(r.get("Target") for r in rels if r.get("Id") == rid)
-        return z.read(target.lstrip("/") if target.startswith("/") else "xl/" + target)
 
 
 def status_cell(path: Path, sheet: str):

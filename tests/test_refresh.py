@@ -20,9 +20,11 @@ import shutil
 import subprocess
 import sys
 import textwrap
+import zipfile
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
+from xml.etree import ElementTree
 
 import numpy as np
 import openpyxl
@@ -354,6 +356,21 @@ def file_state(path: Path) -> tuple[bytes, int]:
     return path.read_bytes(), os.stat(path).st_mtime_ns
 
 
+NS = {"m": "http://schemas.openxmlformats.org/spreadsheetml/2006/main",
+      "r": "http://schemas.openxmlformats.org/officeDocument/2006/relationships"}
+
+
+def sheet_part_bytes(path: Path, name: str) -> bytes:
+    """The bytes of the package part of sheet ``name`` (ECMA-376 Part 1 §12.3.23: workbook ->
+    relationship -> worksheet part)."""
+    with zipfile.ZipFile(path) as z:
+        book = ElementTree.fromstring(z.read("xl/workbook.xml"))
+        rid = next(s.get(f"{{{NS['r']}}}id") for s in book.find("m:sheets", NS) if s.get("name") == name)
+        rels = ElementTree.fromstring(z.read("xl/_rels/workbook.xml.rels"))
+        target = next(r.get("Target") for r in rels if r.get("Id") == rid)
+        return z.read(target.lstrip("/") if target.startswith("/") else "xl/" + target)
+
+
 # ------------------------------------------------------------------------------------------ fixtures
 
 @pytest.fixture(scope="module")
@@ -490,3 +507,55 @@ def test_wrapped_text_reader_sees_long_texts():
     lines = textwrap.wrap(text, 105)
     grid = [["verdict", lines[0]]] + [["", line] for line in lines[1:]] + [["caution", "x"]]
     assert _wrapped_text(grid, "verdict") == " ".join(text.split())
+
+
+def _edit_job_table(path: Path, edit) -> None:
+    """A colleague edits the job table and saves (openpyxl rewrites the file; the custom document
+    property that marks tocsin's sheets survives)."""
+    wb = openpyxl.load_workbook(path)
+    edit(wb["tocsin"])
+    wb.save(path)
+
+
+def test_job_table_edits(tmp_path, capsys):
+    """Only the job whose row changed is recomputed; a disabled job keeps its sheets; a deleted job's
+    sheets go; --force rewrites everything."""
+    from watcher import package
+
+    other = {**GDP_JOB, "job": "unemployment up", "value_column": "Unemployment", "event": "rise"}
+    path = macro_book(tmp_path / "edits.xlsx", GDP_JOB, other)
+    code, out, err = run_cli(capsys, "refresh", str(path))
+    assert code == 0, err
+    col = {s: i + 1 for i, s in enumerate(jobs.SETTINGS)}
+
+    _edit_job_table(path, lambda ws: ws.cell(3, col["horizon"], 2))
+    kept = sheet_part_bytes(path, "gdp fall forecast")
+    code, out, err = run_cli(capsys, "refresh", "--json", str(path))
+    assert code == 0, err
+    status = {j["job"]: j["status"] for j in json.loads(out)[0]["jobs"]}
+    assert status == {"gdp fall": "unchanged", "unemployment up": "ok"}
+    assert sheet_part_bytes(path, "gdp fall forecast") == kept  # copied, not rewritten
+    core = core_reference(path, "unemployment up")
+    assert core.job.horizon == 2
+    check_forecast_sheet(grid_calamine(path, "unemployment up forecast"), core, "calamine")
+
+    _edit_job_table(path, lambda ws: ws.cell(3, col["enabled"], False))
+    code, out, err = run_cli(capsys, "refresh", "--json", str(path))
+    assert code == 0, err
+    assert [j["job"] for j in json.loads(out)[0]["jobs"]] == ["gdp fall"]
+    assert set(package.Package.open(path).owned) == {"gdp fall forecast", "gdp fall profile",
+                                                     "unemployment up forecast", "unemployment up profile"}
+
+    _edit_job_table(path, lambda ws: ws.delete_rows(3))
+    code, out, err = run_cli(capsys, "refresh", str(path))
+    assert code == 0, err
+    pkg = package.Package.open(path)
+    assert set(pkg.owned) == {"gdp fall forecast", "gdp fall profile"}
+    assert "unemployment up forecast" not in pkg.sheet_names
+
+    before = file_state(path)
+    code, out, err = run_cli(capsys, "refresh", str(path))
+    assert code == 0 and "unchanged" in out and file_state(path) == before
+    code, out, err = run_cli(capsys, "refresh", "--force", str(path))
+    assert code == 0 and out.startswith("edits.xlsx: refreshed")
+    check_book(path)
