@@ -103,9 +103,11 @@ def forecast_sheet(ctx: SheetContext, ev: Evaluation, *, dates: np.ndarray | Non
     blocks.append(Cells(0, 0, tuple(head)))
     r = len(head) + 1
     # Headline: the next-period forecast per method.
-    when = (": none, the data end with an observed period (add the next date with a blank value)"
-            if next_date is None else f" for {next_date:%Y-%m-%d}" if isinstance(next_date, dt.date)
-            else f" for {next_date}")
+    if next_date is None:
+        when = ": none, the data end with an observed period" + (
+            " (add the next date with a blank value)" if dates is not None else "")
+    else:
+        when = f" for {next_date:%Y-%m-%d}" if isinstance(next_date, dt.date) else f" for {next_date}"
     blocks.append(Cells(r, 0, (((f"next-period forecast{when}", "bold"),),)))
     r += 1
     headline = ev.headline()
@@ -133,7 +135,8 @@ def forecast_sheet(ctx: SheetContext, ev: Evaluation, *, dates: np.ndarray | Non
     header = ["date" if dates is not None else "row", ctx.value_name, "event", "period"]
     cols = [Column(dates if dates is not None else np.arange(1, n + 1, dtype=float),
                    "date" if dates is not None else "integer"),
-            Column(np.asarray(values, dtype=float)),
+            Column(values if getattr(values, "dtype", None) is np.dtype(object)
+                   else np.asarray(values, dtype=float)),
             Column(np.asarray(events, dtype=float), "integer"),
             Column(tuple(ev.period.tolist()))]
     for m in ev.methods:

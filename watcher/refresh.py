@@ -28,6 +28,7 @@ import numpy as np
 from sheetfns.errors import ConcurrentEditError, JobError, TocsinError
 
 VERSION = "0.1.0"
+MAX_TABLE_ROWS = 1_048_575  # data rows below the row table's header (ECMA-376 Part 1, 18.3.1.73)
 Progress = Callable[[str], None] | None
 
 
@@ -119,13 +120,32 @@ def compute_job(job: Any, data: Any) -> JobOutcome:
     raw = data.raw[job.value_column] if job.text_columns else data.columns[job.value_column]
     events = flag(raw, job.criterion, job.min_run)
     values = data.columns.get(job.value_column)
+    shown = raw if job.text_columns else values  # the row table shows the text of a text criterion
+    predictors = {data.names.get(p, p): data.columns[p] for p in job.predictors} or None
+    known = {data.names.get(p, p): data.columns[p] for p in job.known_ahead} or None
+    notes = list(data.warnings)
+    # Without dates the reader cannot tell future rows (trailing rows are blank), so the periods
+    # after the last observed row are added here: the next-period forecasts need them.
+    pad = min(job.horizon, MAX_TABLE_ROWS - events.size) if data.dates is None and events.size and \
+        not np.isnan(events[-1]) else 0
+    if pad > 0:
+        def more(a: Any) -> Any:
+            fill = np.full(pad, None if a.dtype == object else np.nan, dtype=a.dtype)
+            return np.concatenate([a, fill])
+
+        events, raw = more(events), more(np.asarray(raw))
+        values = more(values) if values is not None else None
+        shown = more(np.asarray(shown)) if shown is not None else None
+        predictors = {k: more(v) for k, v in predictors.items()} if predictors else None
+        known = {k: more(v) for k, v in known.items()} if known else None
+        first = events.size - pad + 1
+        rows = f"rows {first}-{events.size}: the periods" if pad > 1 else f"row {first}: the period"
+        notes.append(f"{rows} after the last data row (the job has no date column)")
     use_values = None
     if values is not None:
         obs = values[~np.isnan(values)]
         if obs.size and not np.isin(obs, (0.0, 1.0)).all():
             use_values = values  # a 0/1 column would enter the model twice (as events and values)
-    predictors = {data.names.get(p, p): data.columns[p] for p in job.predictors} or None
-    known = {data.names.get(p, p): data.columns[p] for p in job.known_ahead} or None
     ev = evaluate(events, train_size=job.train_size, settings=_settings_for(job), dates=data.dates,
                   values=use_values, predictors=predictors, known_ahead=known)
     table = trend = None
@@ -138,8 +158,8 @@ def compute_job(job: Any, data: Any) -> JobOutcome:
             trend = None
     return JobOutcome(job=job, name=job.name, sheet=job.output_sheet, profile_sheet=job.profile_sheet,
                       fingerprint="", evaluation=ev, data=data, events=events,
-                      values=values if values is not None else events, profile=table, trend=trend,
-                      notes=tuple(data.warnings))
+                      values=shown if shown is not None else events, profile=table, trend=trend,
+                      notes=tuple(notes))
 
 
 def _event_text(job: Any, data: Any) -> str:
