@@ -196,10 +196,21 @@ def core_reference(path: Path, name: str) -> Core:
     raw = data.raw[job.value_column] if job.text_columns else data.columns[job.value_column]
     events = flag(raw, job.criterion, job.min_run)
     values = data.columns.get(job.value_column)
-    obs = values[~np.isnan(values)] if values is not None else np.array([0.0])
-    use_values = values if obs.size and not np.isin(obs, (0.0, 1.0)).all() else None
+    shown = raw if job.text_columns else values
     predictors = {data.names[p]: data.columns[p] for p in job.predictors} or None
     known = {data.names[p]: data.columns[p] for p in job.known_ahead} or None
+    if data.dates is None and not np.isnan(events[-1]):
+        # no dates: the `horizon` periods after the last data row are the future rows
+        def more(a):
+            return np.concatenate([a, np.full(job.horizon, None if a.dtype == object else np.nan,
+                                              dtype=a.dtype)])
+
+        events, shown = more(events), more(np.asarray(shown))
+        values = more(values) if values is not None else None
+        predictors = {k: more(v) for k, v in predictors.items()} if predictors else None
+        known = {k: more(v) for k, v in known.items()} if known else None
+    obs = values[~np.isnan(values)] if values is not None else np.array([0.0])
+    use_values = values if obs.size and not np.isin(obs, (0.0, 1.0)).all() else None
     settings = Settings(horizon=job.horizon, season=job.season, cycle=job.cycle, harmonics=job.harmonics,
                         lags=job.lags, refit=job.refit, cutoff=job.cutoff,
                         cost_false_alarm=job.cost_false_alarm, cost_miss=job.cost_miss,
@@ -229,7 +240,7 @@ def core_reference(path: Path, name: str) -> Core:
         by = {"quarterly": "quarter"}.get(job.frequency or "", "month")
         rates = profile.rate_table(data.dates, events, by=by)
         trend = profile.seasonal_trend(rates, degree=2)
-    return Core(job, data, events, values if values is not None else events, ev, rates, trend)
+    return Core(job, data, events, shown if shown is not None else events, ev, rates, trend)
 
 
 # ------------------------------------------------------------------------------ the sheet vs the core
@@ -249,7 +260,13 @@ def check_forecast_sheet(grid: list[list[Any]], core: Core, reader: str) -> None
     if data.dates is not None:
         got = np.array([as_day(cell(grid, 1 + i, TABLE_COL)) for i in range(n)])
         assert (got == data.dates).all(), f"{what}: dates"
-    same(floats(grid, TABLE_COL + 1, 1, n), core.values, f"{what}: value column")
+    else:
+        same(floats(grid, TABLE_COL, 1, n), np.arange(1, n + 1), f"{what}: row numbers")
+    if core.values.dtype == object:  # the text of a text criterion
+        assert [cell(grid, 1 + i, TABLE_COL + 1) for i in range(n)] == \
+            [None if v is None or v == "" else v for v in core.values], f"{what}: value column"
+    else:
+        same(floats(grid, TABLE_COL + 1, 1, n), core.values, f"{what}: value column")
     same(floats(grid, TABLE_COL + 2, 1, n), core.events, f"{what}: event column")
     assert [cell(grid, 1 + i, TABLE_COL + 3) for i in range(n)] == ev.period.tolist(), f"{what}: periods"
     for j, m in enumerate(ev.methods):
@@ -259,7 +276,10 @@ def check_forecast_sheet(grid: list[list[Any]], core: Core, reader: str) -> None
     # Header block.
     assert cell(grid, find_row(grid, "status"), 1) == "ok", what
     through = cell(grid, find_row(grid, "data through"), 1)
-    assert as_day(through) == data.dates[ev.last_observed], f"{what}: data through"
+    if data.dates is not None:
+        assert as_day(through) == data.dates[ev.last_observed], f"{what}: data through"
+    else:
+        assert through == f"row {ev.last_observed + 1}", f"{what}: data through"
     # Headline: the next-period forecast per method.
     r = find_row(grid, "method", "forecast")
     head = ev.headline()
@@ -269,7 +289,8 @@ def check_forecast_sheet(grid: list[list[Any]], core: Core, reader: str) -> None
         word = {1.0: "event", 0.0: "no event"}.get(head[m.key][0], "")
         assert (cell(grid, r + 1 + i, 1) or "") == word, f"{what}: headline {m.label}"
     if ev.last_observed + 1 < n:
-        nxt = str(data.dates[ev.last_observed + 1].astype("datetime64[D]"))
+        nxt = (str(data.dates[ev.last_observed + 1].astype("datetime64[D]")) if data.dates is not None
+               else f"row {ev.last_observed + 2}")
         assert cell(grid, r - 1, 0) == f"next-period forecast for {nxt}", what
     else:
         assert cell(grid, r - 1, 0).startswith("next-period forecast: none, the data end"), what
@@ -559,3 +580,30 @@ def test_job_table_edits(tmp_path, capsys):
     code, out, err = run_cli(capsys, "refresh", "--force", str(path))
     assert code == 0 and out.startswith("edits.xlsx: refreshed")
     check_book(path)
+
+
+def test_job_without_dates_and_a_text_criterion(tmp_path, capsys):
+    """A job with no date column (rows are periods: the next rows after the data are the future) and a
+    text criterion (``=recession``) on a column derived from macrodata's GDP declines."""
+    from statsmodels.datasets import macrodata
+
+    rows = macrodata_rows()
+    rows[0].append("Phase")
+    for i, row in enumerate(rows[1:], 1):
+        row.append(None if i == 1 else "recession" if row[1] < rows[i - 1][1] else "growth")
+    no_dates = {**GDP_JOB, "job": "gdp fall by row", "date_column": None, "horizon": 2}
+    text = {**GDP_JOB, "job": "phase", "value_column": "Phase", "event": "=recession"}
+    path = write_book(tmp_path / "rows.xlsx", {"Macro": rows, "tocsin": job_table(no_dates, text)})
+    code, out, err = run_cli(capsys, "refresh", "--json", str(path))
+    assert code == 0, err
+    rep = {j["job"]: j for j in json.loads(out)[0]["jobs"]}
+    assert rep["gdp fall by row"]["next_period"] == "row 204"  # 203 quarters of data, horizon 2
+    cores = check_book(path)
+    ev = cores["gdp fall by row"].ev
+    assert ev.n == 205 and ev.last_observed == 202
+    grid = grid_openpyxl(path, "gdp fall by row forecast")
+    assert "gdp fall by row profile" not in openpyxl.load_workbook(path, read_only=True).sheetnames
+    assert any("rows 204-205: the periods after the last data row" in str(c) for r in grid for c in r[:2])
+    # the text job's events are the declines, counted independently with pandas
+    df = macrodata.load_pandas().data
+    assert np.nansum(cores["phase"].events) == (df.realgdp.diff() < 0).sum()
