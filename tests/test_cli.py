@@ -85,6 +85,20 @@ def test_one_failing_workbook_does_not_stop_the_next(tmp_path, capsys):
     check_book(good)
 
 
+@pytest.mark.parametrize("owner", ["~$busy.xlsx", ".~lock.busy.xlsx#"])
+def test_workbook_open_in_a_spreadsheet_program_is_left_alone(tmp_path, capsys, owner):
+    path = macro_book(tmp_path / "busy.xlsx", stop=60)
+    (tmp_path / owner).write_text("owner")
+    before = file_state(path)
+    code, out, err = run_cli(capsys, "refresh", str(path))
+    assert code == 1 and out.startswith("busy.xlsx: busy")
+    assert err.startswith("error: busy.xlsx: not refreshed: open in a spreadsheet program")
+    assert file_state(path) == before
+    (tmp_path / owner).unlink()
+    code, out, err = run_cli(capsys, "refresh", str(path))
+    assert code == 0 and out.startswith("busy.xlsx: refreshed")
+
+
 # ---------------------------------------------------------------------------------- invalid settings
 
 # (setting, value, what the message must say): a few of the documented errors of watcher/jobs.py
