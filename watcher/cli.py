@@ -161,6 +161,12 @@ def main(argv: Sequence[str] | None = None) -> int:
             raise
         print(f"error: {_describe(exc)}", file=sys.stderr)
         return 1
+    except Exception as exc:  # a bug of ours: still no traceback unless asked for
+        if args.debug:
+            raise
+        print(f"error: internal error ({type(exc).__name__}: {exc}); run the command again with "
+              "--debug for the traceback and report it", file=sys.stderr)
+        return 1
 
 
 def _describe(exc: BaseException) -> str:
