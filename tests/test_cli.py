@@ -320,6 +320,22 @@ def test_debug_shows_the_traceback(tmp_path):
                   "--event", ">1"])
 
 
+def test_internal_error_without_traceback(tmp_path, capsys, monkeypatch):
+    from watcher import refresh
+
+    def broken(*args, **kwargs):
+        raise RuntimeError("something we did not expect")
+
+    monkeypatch.setattr(refresh, "refresh_workbook", broken)
+    code, out, err = run_cli(capsys, "refresh", str(tmp_path / "x.xlsx"))
+    assert code == 1
+    assert err.startswith("error: internal error (RuntimeError: something we did not expect); run the "
+                          "command again with --debug")
+    no_traceback(err)
+    with pytest.raises(RuntimeError):
+        run_cli(capsys, "--debug", "refresh", str(tmp_path / "x.xlsx"))
+
+
 _HAS_UNOWNED = "owned" in inspect.signature(package.write).parameters
 
 
