@@ -303,6 +303,7 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
     changed while computing; nothing written), "busy" (open in a spreadsheet program).
     """
     from watcher import package
+    from watcher.debounce import owner_file
 
     path = Path(path)
     start = time.monotonic()
@@ -370,16 +371,6 @@ def _message(exc: BaseException) -> str:
         return f"{exc.filename or ''}: {exc.strerror or exc}".lstrip(": ")
     return str(exc)
 
-
-def owner_file(path: Path) -> Path | None:
-    """The lock file a spreadsheet program keeps beside an open workbook, if present:
-    ``~$name.xlsx`` (one family of programs; the name may lose its first characters) or
-    ``.~lock.name.xlsx#`` (LibreOffice)."""
-    folder = path.parent
-    for cand in (folder / f"~${path.name}", folder / f"~${path.name[2:]}", folder / f".~lock.{path.name}#"):
-        if cand.exists():
-            return cand
-    return None
 
 
 # ----------------------------------------------------------------------------------------- check
