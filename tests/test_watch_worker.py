@@ -210,3 +210,20 @@ def test_importing_the_watcher_stays_light():
                          cwd=Path(__file__).resolve().parent.parent)
     assert out.returncode == 0, out.stderr
     assert out.stdout.strip() == "[]"
+
+
+def test_workbook_without_job_table_is_told_once(tmp_path):
+    """A workbook with no job table in a watched folder: one line on stderr, not one per save."""
+    import io
+
+    from watcher.refresh_worker import Outcome
+    from watcher.watchlog import WatchLog
+
+    stream = io.StringIO()
+    log = WatchLog(stream, tmp_path / "log.jsonl")
+    book = tmp_path / "notes.xlsx"
+    for _ in range(3):
+        log.outcome(Outcome(book, "nojobs", "notes.xlsx has no job table", 0.01))
+    log.close()
+    assert stream.getvalue().count("nojobs") == 1
+    assert (tmp_path / "log.jsonl").read_text().count('"nojobs"') == 3

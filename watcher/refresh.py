@@ -300,8 +300,10 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
 
     Statuses: "refreshed" (written), "unchanged" (inputs as at the last refresh; nothing written),
     "failed" (the workbook could not be read or written; ``message`` says why), "conflict" (the file
-    changed while computing; nothing written), "busy" (open in a spreadsheet program).
+    changed while computing; nothing written), "busy" (open in a spreadsheet program), "nojobs"
+    (the workbook has no job table: nothing to do, and an error for a workbook named on purpose).
     """
+    from watcher import jobs as jobs_mod
     from watcher import package
     from watcher.debounce import owner_file
 
@@ -317,6 +319,9 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
                                     "left alone until it is closed")
     try:
         pkg = package.Package.open(path)
+        if not any(s.casefold() == jobs_mod.TABLE_SHEET for s in pkg.sheet_names):
+            return done("nojobs", message=f"{path.name} has no job table: add a sheet named "
+                                          f"{jobs_mod.TABLE_SHEET!r} (or run `tocsin init`)")
         state = dict(pkg.state or {})
         old: dict[str, dict] = state.get("jobs", {})
         owned = {s.casefold() for s in pkg.owned}

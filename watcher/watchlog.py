@@ -58,6 +58,7 @@ class WatchLog:
         self._stream = stream
         self._lock = threading.Lock()
         self._json: IO[str] | None = None
+        self._told_nojobs: set[str] = set()
         if json_path is not None:
             try:
                 self._json = open(json_path, "a", encoding="utf-8")  # noqa: SIM115  (closed in close())
@@ -122,4 +123,7 @@ class WatchLog:
         if outcome.traceback:
             fields["traceback"] = outcome.traceback
         quiet = outcome.status in ("unchanged", "busy")  # busy: the "waiting" line says it
+        if outcome.status == "nojobs":  # a workbook without a job table: say so once, not per save
+            quiet = str(outcome.path) in self._told_nojobs
+            self._told_nojobs.add(str(outcome.path))
         self.event("refresh", text, on_stream=not quiet, **fields)
