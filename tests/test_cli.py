@@ -34,6 +34,7 @@ from test_refresh import (
 
 from sheetfns.scorecard import METHOD_LABELS, SCORE_ROWS
 from watcher import package
+from watcher.report import _two_lines
 
 
 def no_traceback(*texts: str) -> None:
@@ -228,8 +229,12 @@ def test_check_prints_the_scorecard_and_writes_nothing(tmp_path, capsys):
     assert file_state(path) == before
     core = core_reference(path, "gdp fall")
     assert f"== gdp fall ({core.ev.train_size} training" in out
+    # every method is named in the two header lines (long names are split over both)
+    lines = out.splitlines()
+    top = next(i for i, line in enumerate(lines) if line.startswith("== gdp fall")) + 1
     for m in core.ev.methods:
-        assert m.label in out
+        first, second = _two_lines(m.label)
+        assert first in lines[top] and second in lines[top + 1], m.label
     for _key, label, _fmt, _better in SCORE_ROWS:
         assert label in out
     assert core.ev.verdict in out

@@ -266,7 +266,7 @@ def profile_sheet(ctx: SheetContext, table: Any, trend: Any, ev: Evaluation | No
         r = _reliability(blocks, charts, r, ev)
     if ev is not None and ev.roc is not None:
         r = _roc(blocks, charts, r, ev)
-    widths = {0: 14, **{j: 9 for j in range(1, len(header))}}
+    widths = {0: 14, **{j: 11 for j in range(1, len(header))}}
     return SheetSpec(ctx.profile_sheet, tuple(blocks), col_widths=widths, charts=tuple(charts),
                      color_scales=tuple(scales))
 

@@ -64,19 +64,30 @@ def _cell(v: float, fmt: str) -> str:
 
 
 def scorecard_text(ev: Any) -> str:
-    """The validation scorecard as a fixed-width table (methods as columns; * marks the best)."""
+    """The validation scorecard as a fixed-width table (methods as columns; * marks the best).
+    Long method names are split over two header lines so the table fits a terminal."""
     labels = [m.label for m in ev.methods]
-    width = max(10, *(len(x) for x in labels)) + 1
-    first = max(len(label) for _, label, _, _ in SCORE_ROWS) + 2
-    out = ["".ljust(first) + "".join(x.rjust(width) for x in labels)]
+    heads = [_two_lines(x) for x in labels]
+    widths = [max(8, *(len(h) for h in pair)) + 2 for pair in heads]
+    first = max(len(label) for _, label, _, _ in SCORE_ROWS) + 1
+    out = ["".ljust(first) + "".join(h[0].rjust(w) for h, w in zip(heads, widths, strict=True)),
+           "".ljust(first) + "".join(h[1].rjust(w) for h, w in zip(heads, widths, strict=True))]
     for key, label, fmt, better in SCORE_ROWS:
         vals = [ev.scorecard[m.key].get(key, math.nan) for m in ev.methods]
         finite = [v for v in vals if not math.isnan(v)]
         best = (max(finite) if better == "hi" else min(finite)) if better and finite else None
-        cells = [(_cell(v, fmt) + ("*" if best is not None and v == best else " ")).rjust(width)
-                 for v in vals]
+        cells = [(_cell(v, fmt) + ("*" if best is not None and v == best else " ")).rjust(w)
+                 for v, w in zip(vals, widths, strict=True)]
         out.append(label.ljust(first) + "".join(cells))
-    return "\n".join(out)
+    return "\n".join(line.rstrip() for line in out)
+
+
+def _two_lines(label: str) -> tuple[str, str]:
+    words = label.split()
+    if len(words) == 1:
+        return "", label
+    cut = max(range(1, len(words)), key=lambda i: -abs(len(" ".join(words[:i])) - len(" ".join(words[i:]))))
+    return " ".join(words[:cut]), " ".join(words[cut:])
 
 
 def check_errors(result: Any) -> list[str]:
