@@ -474,3 +474,43 @@ def copy_book(books: dict[str, Path], name: str, folder: Path) -> Path:
     dst = folder / src.name
     shutil.copyfile(src, dst)
     return dst
+
+
+def profile_spec(name: str = "Fc profile"):
+    """A sheet shaped like a profile sheet (invented data): event rate by month and year with a line per
+    year plus the overall rate, a reliability table with its diagram (and the no-skill diagonal), ROC
+    points with their curve."""
+    import numpy as np
+
+    from watcher.sheetspec import ChartSpec, Column, Range, Series, SheetSpec, Table
+
+    rng = np.random.default_rng(5)
+    months = ["Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec"]
+    years = {y: np.round(np.clip(0.2 + 0.15 * np.sin(np.arange(12) / 2) + rng.normal(0, 0.04, 12), 0, 1), 3)
+             for y in (2022, 2023, 2024)}
+    overall = np.mean(np.vstack(list(years.values())), axis=0)
+    rates = Table(0, 0, ("month", *map(str, years), "all years"),
+                  (Column(months, "text"), *(Column(v, "percent") for v in years.values()),
+                   Column(overall, "percent")))
+    mean_f = (np.arange(10) + 0.5) / 10
+    observed = np.clip(mean_f + rng.normal(0, 0.05, 10), 0, 1)
+    rel = Table(15, 0, ("mean forecast", "observed frequency", "no skill"),
+                (Column(mean_f, "dec3"), Column(observed, "dec3"), Column(mean_f, "dec3")))
+    fpr = np.concatenate([[0.0], np.sort(rng.random(8)), [1.0]])
+    tpr = np.sqrt(fpr)
+    roc = Table(28, 0, ("false alarm rate", "hit rate", "no skill"),
+                (Column(fpr, "dec3"), Column(tpr, "dec3"), Column(fpr, "dec3")))
+    line = ChartSpec("line", "Event rate by month", (0, 6),
+                     tuple(Series(rates.header_ref(j), rates.ref(j), style="line") for j in range(1, 5)),
+                     categories=rates.ref(0), y_axis_title="share of days", y_fmt="percent")
+    reliability = ChartSpec("scatter", "Reliability diagram", (19, 6), (
+        Series(rel.header_ref(1), rel.ref(1), x=rel.ref(0), style="line+marker"),
+        Series("no skill", rel.ref(2), x=rel.ref(0), style="reference")),
+        x_axis_title="forecast probability", y_axis_title="observed frequency", x_range=(0, 1),
+        y_range=(0, 1))
+    roc_chart = ChartSpec("scatter", "ROC curve", (38, 6), (
+        Series("logistic", roc.ref(1), x=roc.ref(0), style="line"),
+        Series("no skill", roc.ref(2), x=roc.ref(0), style="reference")),
+        x_axis_title="false alarm rate", y_axis_title="hit rate", x_range=(0, 1), y_range=(0, 1))
+    return SheetSpec(name, (rates, rel, roc), col_widths={0: 16}, charts=(line, reliability, roc_chart),
+                     color_scales=(Range(1, 1, 12, 3),))

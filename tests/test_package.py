@@ -584,14 +584,32 @@ def test_user_custom_properties_kept(tmp_path, books):
 
     before = user_props(_member(path, "docProps/custom.xml"))
     assert len(before) == 2
-    big_state = {"jobs": {f"job {i}": {"sha256": "ab" * 32, "rows": i} for i in range(40)}}
+    big_state = {"jobs": {f"job {i}  x ": {"sha256": "ab" * 32, "rows": i, "note": " " * (i % 7)}
+                          for i in range(40)}, "ünï": "ferry \U0001F6A2"}
     _write(path, [_simple("Fc", [1.0])], state=big_state)
     after = _member(path, "docProps/custom.xml")
     assert user_props(after) == before
     ours = [p for p in etree.fromstring(after) if p.get("name", "").startswith(MARKER_PREFIX)]
-    assert len(ours) > 10 and all(len("".join(p.itertext())) <= 255 for p in ours)
+    texts = ["".join(p.itertext()) for p in ours]
+    assert len(ours) > 10 and all(len(t) <= 255 and t == t.strip() for t in texts)
     assert Package.open(path).state == big_state
     assert validate(path) == []
+
+
+def test_protected_structure_is_respected(tmp_path, books):
+    path = corpus.copy_book(books, "charts", tmp_path)
+    _write(path, [_simple("Fc", [1.0])])
+    wb = _member(path, "xl/workbook.xml").replace(b"<bookViews>",
+                                                  b'<workbookProtection lockStructure="1"/><bookViews>')
+    _replace_member(path, "xl/workbook.xml", wb)
+    assert validate(path) == []
+    before = path.read_bytes()
+    with pytest.raises(PackageError, match="protected structure"):
+        _write(path, [_simple("New", [1.0])])
+    with pytest.raises(PackageError, match="protected structure"):
+        _write(path, [], remove=["Fc"])
+    assert path.read_bytes() == before
+    assert _write(path, [_simple("Fc", [2.0])]).replaced == ("Fc",)  # its own sheet's content may change
 
 
 def test_calc_chain_pruned_and_recalc_on_load(tmp_path, books):

@@ -13,6 +13,7 @@ import csv
 import shutil
 import subprocess
 import zipfile
+from pathlib import Path
 
 import corpus
 import libreoffice
@@ -82,15 +83,24 @@ def test_libreoffice_shows_the_numbers_and_dates(written, tmp_path):
 
 def test_libreoffice_renders_the_charts(written, tmp_path):
     paths, _ = written
-    chosen = [paths[n] for n in ("charts", "d1904", "lo_resaved") if n in paths]
-    pdfs = corpus.lo_convert(chosen, "pdf", tmp_path)
+    chosen = []
+    for n in ("charts", "d1904", "lo_resaved"):
+        if n in paths:  # add a profile sheet (a line chart, a reliability diagram, an ROC curve)
+            p = shutil.copy(paths[n], tmp_path / paths[n].name)
+            write(p, [corpus.profile_spec()], state={"job": n}, expect=Package.open(p).fingerprint)
+            assert validate(p) == []
+            chosen.append(Path(p))
+    pdfs = corpus.lo_convert(chosen, "pdf", tmp_path / "pdf")
     assert len(pdfs) == len(chosen)
+    titles = ("Passengers", "Probability against value", "Event rate by month", "Reliability diagram",
+              "ROC curve")
     for pdf in pdfs:
         assert pdf.stat().st_size > 5_000 and pdf.read_bytes().startswith(b"%PDF")
         if shutil.which("pdftotext"):
             text = subprocess.run(["pdftotext", str(pdf), "-"], capture_output=True, text=True,
                                   timeout=60).stdout
-            assert "Passengers" in text and "Probability against value" in text, pdf.name
+            missing = [t for t in titles if t not in text]
+            assert not missing, f"{pdf.name}: charts not drawn: {missing}"
 
 
 def test_round_trip_through_libreoffice(written, books, tmp_path):

@@ -65,7 +65,7 @@ from watcher import sheetxml as _sheetxml
 from watcher.cellstyles import ensure_styles, minimal_styles
 from watcher.opc import CT, NS, REL, ContentTypes, Rels, parse_xml, relative_target, rels_part_of, serialize
 from watcher.sheetspec import SheetSpec, check_sheet_name
-from watcher.zipio import ZipSource, ZipWriter
+from watcher.zipio import MAX_TOTAL, ZipSource, ZipWriter
 
 __all__ = ["Fingerprint", "Package", "SheetInfo", "WriteResult", "MARKER_PREFIX", "fingerprint_of",
            "validate", "write"]
@@ -144,6 +144,9 @@ def _read_file(path: Path) -> tuple[bytes, Fingerprint]:
     try:
         with open(path, "rb") as fh:
             before = os.fstat(fh.fileno())
+            if before.st_size > MAX_TOTAL:
+                raise PackageError(f"workbook '{label}' is {before.st_size / 1024**3:.1f} GiB; tocsin reads "
+                                   f"workbooks up to {MAX_TOTAL // 1024**3} GiB")
             data = fh.read()
             after = os.fstat(fh.fileno())
     except FileNotFoundError as exc:
@@ -397,6 +400,14 @@ def _check_request(src: _Source, specs: Sequence[SheetSpec], remove: Sequence[st
             raise OwnershipError(f"sheet '{info.name}' in '{src.label}' is not tocsin's (tocsin did not "
                                  f"create it){hint}; tocsin never overwrites or removes it. Rename that "
                                  "sheet, or choose another output sheet name")
+    protection = src.child(src.wb, "workbookProtection")
+    locked = protection is not None and protection.get("lockStructure", "0").lower() in ("1", "true")
+    changes_structure = any(s.name.casefold() not in by_key for s in specs) or any(
+        n.casefold() in by_key for n in remove)
+    if locked and changes_structure:
+        raise PackageError(f"'{src.label}' has a protected structure (sheets cannot be added or removed); "
+                           "tocsin leaves it alone. Unprotect the workbook structure to let tocsin add its "
+                           "sheets")
 
 
 def _plan(src: _Source, specs: Sequence[SheetSpec], state: dict, remove: Sequence[str]) -> _Plan:
@@ -506,8 +517,9 @@ def _plan(src: _Source, specs: Sequence[SheetSpec], state: dict, remove: Sequenc
     owned = [s.name for s in remaining if s.owned or s.name in plan.replaced] + plan.added
     record = {"format": _MARKER_FORMAT, "sheets": sorted(dict.fromkeys(owned), key=str.casefold),
               "state": state}
-    text = _state_json(record)
-    if text != _state_json({**src.marker, "format": _MARKER_FORMAT}) or src.marker_problem:
+    text = _state_json(record).replace(" ", "\\u0020")  # no chunk may start or end with a space
+    old = _state_json({**src.marker, "format": _MARKER_FORMAT}).replace(" ", "\\u0020")
+    if text != old or src.marker_problem:
         _write_marker(plan, text, taken)
 
     # 7. registry parts that changed

@@ -195,6 +195,8 @@ class Column:
 
     def __post_init__(self) -> None:
         values = self.values
+        if not isinstance(values, np.ndarray) and hasattr(values, "to_numpy"):  # pandas Series / Index
+            values = values.to_numpy()
         if isinstance(values, np.ndarray):
             if values.ndim != 1:
                 raise InputError(f"Column values must be one-dimensional; got shape {values.shape}")
@@ -306,7 +308,9 @@ class Table:
 @dataclass(frozen=True)
 class Cells:
     """A few rows of ``(value, fmt)`` pairs; the first cell at ``(row, col)``. A row may be shorter than
-    others; ``None`` with format ``general`` leaves the cell out."""
+    others; ``None`` with format ``general`` leaves the cell out. A row given as one bare ``(value, fmt)``
+    pair is a row of one cell, so ``Cells(0, 0, (("Title", "title"), ("status: ok", "good")))`` is a
+    column of two cells."""
 
     row: int
     col: int
@@ -316,6 +320,9 @@ class Cells:
         _check_pos(self.row, self.col, "Cells")
         rows = []
         for i, r in enumerate(self.rows):
+            if (isinstance(r, tuple) and len(r) == 2 and isinstance(r[1], str) and r[1] in FORMATS
+                    and not isinstance(r[0], tuple)):
+                r = (r,)
             cells = []
             for j, pair in enumerate(r):
                 if not isinstance(pair, tuple) or len(pair) != 2:

@@ -194,6 +194,9 @@ def style_keys(spec: SheetSpec) -> set[tuple[str, bool]]:
             if col.bold is not None:
                 keys.add((col.fmt, True))
             if not isinstance(col.values, np.ndarray) and col.fmt not in ("date", "datetime"):
+                kinds = set(map(type, col.values))
+                if not any(issubclass(k, (_dt.date, np.datetime64)) for k in kinds):
+                    continue
                 dates = [v for v in col.values if _is_date(v)]
                 for flag in (False, True) if col.bold is not None else (False,):
                     if any(not _has_time(v) for v in dates):
@@ -409,7 +412,10 @@ def _generic_rows(active: list[_Band], writers, styles: _Styles, seg_start: int,
             continue
         cells.sort(key=lambda t: t[0])
         row = str(r + 1)
-        out.append(f'<row r="{row}">' + "".join(f'<c r="{col_letter(c)}{row}{p}' for c, p in cells)
+        tall = any(band.kind == "cells" and any(fmt == "title" for _, fmt in band.block.rows[r - band.start])
+                   for band, _ in per_band if band.kind == "cells")
+        height = ' ht="19.5" customHeight="1"' if tall else ""
+        out.append(f'<row r="{row}"{height}>' + "".join(f'<c r="{col_letter(c)}{row}{p}' for c, p in cells)
                    + "</row>")
     yield "".join(out)
 
