@@ -22,13 +22,15 @@ import math
 import sys
 import time
 from collections import deque
-from collections.abc import Callable
 from pathlib import Path
 
 import numpy as np
 
 if __package__ in (None, ""):
     sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+
+from _timing import best_of  # noqa: E402
 
 from sheetfns import benchmarks as B  # noqa: E402
 from sheetfns.events import flag  # noqa: E402
@@ -39,13 +41,6 @@ LOOP_ROWS = 100_000
 NAN = float("nan")
 
 
-def best_of(fn: Callable[[], object], repeat: int = 3) -> float:
-    best = float("inf")
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - t0)
-    return best
 
 
 def make_data(n: int, seed: int = 20240611) -> tuple[np.ndarray, np.ndarray, int]:

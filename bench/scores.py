@@ -11,25 +11,17 @@ machine.
 from __future__ import annotations
 
 import sys
-import time
 import warnings
-from collections.abc import Callable
 from pathlib import Path
 
 import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+
+from _timing import best_of  # noqa: E402
 
 from sheetfns import scores  # noqa: E402
-
-
-def best_of(fn: Callable[[], object], repeat: int = 3) -> float:
-    best = float("inf")
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - t0)
-    return best
 
 
 def sklearn_categorical(actual: np.ndarray, forecast: np.ndarray) -> dict[str, float]:

@@ -12,24 +12,17 @@ from __future__ import annotations
 import functools
 import sys
 import time
-from collections.abc import Callable
 from pathlib import Path
 
 import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+
+from _timing import best_of  # noqa: E402
 
 from sheetfns import _coerce as c  # noqa: E402
 from sheetfns import udf as U  # noqa: E402
-
-
-def best_of(fn: Callable[[], object], repeat: int = 5) -> float:
-    best = float("inf")
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - t0)
-    return best
 
 
 def naive_column(rows: list[list[object]]) -> np.ndarray:
@@ -67,16 +60,16 @@ def main(argv: list[str] | None = None) -> int:
     forecast = as_cells((rng.random(n) < 0.3).astype(float))
     prob = as_cells(np.round(rng.random(n), 3))
 
-    ours = best_of(lambda: c.number_column(rows, "values"))
-    naive = best_of(lambda: naive_column(rows))
+    ours = best_of(lambda: c.number_column(rows, "values"), 5)
+    naive = best_of(lambda: naive_column(rows), 5)
     np.testing.assert_array_equal(c.number_column(rows, "values"), naive_column(rows))
     print(f"rows: {n:,}")
     print(f"range conversion: vectorised {ours * 1e3:8.2f} ms, cell by cell {naive * 1e3:8.2f} ms, "
           f"ratio {naive / ours:5.1f}x")
     # the same column as the add-in hands back another function's output: blanks as "" text
     texty = [["" if r[0] is None else r[0]] for r in rows]
-    ours_t = best_of(lambda: c.number_column(texty, "values"))
-    naive_t = best_of(lambda: naive_column(texty))
+    ours_t = best_of(lambda: c.number_column(texty, "values"), 5)
+    naive_t = best_of(lambda: naive_column(texty), 5)
     print(f"  with blanks as '' text: vectorised {ours_t * 1e3:8.2f} ms, cell by cell "
           f"{naive_t * 1e3:8.2f} ms, ratio {naive_t / ours_t:5.1f}x")
     calls = {
