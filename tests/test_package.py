@@ -26,7 +26,7 @@ from python_calamine import CalamineWorkbook
 from sheetfns.errors import ConcurrentEditError, InputError, OwnershipError, PackageError
 from watcher import package as pkg
 from watcher import zipio
-from watcher.package import MARKER_PREFIX, Package, validate, write
+from watcher.package import MARKER_PREFIX, SHEET_MARK, Package, validate, write
 from watcher.sheetspec import Cells, Column, SheetSpec, Table, check_sheet_name
 from watcher.sheetxml import date_serials, escape_text
 
@@ -462,6 +462,21 @@ def test_renamed_sheet_becomes_the_users(tmp_path, books):
         _write(path, [], remove=["Kept by me"])
 
 
+def test_sheet_made_again_under_tocsins_name_is_the_users(tmp_path, books):
+    # The user deleted tocsin's sheet and made their own under the same name: the record still lists the
+    # name, but the new sheet lacks tocsin's mark (a sheet-scoped name goes with its sheet).
+    path = corpus.copy_book(books, "charts", tmp_path)
+    _write(path, [_simple("Fc", [1.0])])
+    wb = _member(path, "xl/workbook.xml").decode()
+    assert f'<definedName name="{SHEET_MARK}" localSheetId="2" hidden="1">\'Fc\'!$A$1</definedName>' in wb
+    start = wb.index(f'<definedName name="{SHEET_MARK}"')
+    wb = wb[:start] + wb[wb.index("</definedName>", start) + len("</definedName>"):]
+    _replace_member(path, "xl/workbook.xml", wb.encode())
+    assert Package.open(path).owned == ()
+    with pytest.raises(OwnershipError, match="not tocsin's mark"):
+        _write(path, [_simple("Fc", [2.0])])
+
+
 def test_unreadable_marker_protects_everything(tmp_path, books):
     path = corpus.copy_book(books, "charts", tmp_path)
     _write(path, [_simple("Fc", [1.0])])
@@ -504,10 +519,12 @@ def test_removing_keeps_positional_references(tmp_path, books):
     view.set("activeTab", "2")
     view.set("firstSheet", "1")
     for dn in root.find("m:definedNames", ns):
-        if dn.get("localSheetId") is not None:
+        if dn.get("name") == SHEET_MARK:  # tocsin's mark moves with its sheet
+            dn.set("localSheetId", "0")
+        elif dn.get("localSheetId") is not None:
             dn.set("localSheetId", str(int(dn.get("localSheetId")) + 1))
     _replace_member(path, "xl/workbook.xml", etree.tostring(root, xml_declaration=True, encoding="UTF-8"))
-    assert validate(path) == []
+    assert validate(path) == [] and Package.open(path).owned == ("Fc",)
     _write(path, [], remove=["Fc"])
     root = etree.fromstring(_member(path, "xl/workbook.xml"))
     view = root.find("m:bookViews/m:workbookView", ns)

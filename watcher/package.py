@@ -26,12 +26,17 @@ A custom document property (``docProps/custom.xml``, ECMA-376 Part 1, §22.3) ca
 ``{"format": 1, "sheets": [...], "state": {...}}`` split over properties ``tocsin.000``, ``tocsin.001``,
 ... of at most 255 characters each (spreadsheet programs limit the length of one value). Spreadsheet
 programs keep custom properties when they save, so ownership and state survive a round trip through
-them. A sheet is tocsin's only if its name is in that record; the user's own custom properties are kept
-as they are. A user who renames a tocsin sheet makes it theirs (tocsin writes a fresh one).
+them. Each of tocsin's sheets also carries a mark of its own: a hidden defined name ``_tocsin_owned``
+scoped to it (``localSheetId``), which spreadsheet programs keep with the sheet, move with it and delete
+with it. A sheet is tocsin's only if its name is in the record *and* it carries the mark, so a user's
+sheet made under the same name after deleting tocsin's is never taken for tocsin's. The user's own custom
+properties are kept as they are. A user who renames a tocsin sheet makes it theirs (tocsin writes a
+fresh one).
 
 What changes in a write
 -----------------------
-Only these registry parts may change: ``xl/workbook.xml`` (new ``<sheet>`` entries, ``fullCalcOnLoad``),
+Only these registry parts may change: ``xl/workbook.xml`` (new ``<sheet>`` entries and their marks,
+``fullCalcOnLoad``),
 ``xl/_rels/workbook.xml.rels``, ``[Content_Types].xml``, ``xl/styles.xml`` (cell formats appended, never
 renumbered), ``docProps/custom.xml`` (and ``_rels/.rels`` when that part is new) and
 ``xl/calcChain.xml`` (entries of rewritten sheets dropped); each is rewritten only when its content
@@ -67,10 +72,13 @@ from watcher.opc import CT, NS, REL, ContentTypes, Rels, parse_xml, relative_tar
 from watcher.sheetspec import SheetSpec, check_sheet_name
 from watcher.zipio import MAX_TOTAL, ZipSource, ZipWriter
 
-__all__ = ["Fingerprint", "Package", "SheetInfo", "WriteResult", "MARKER_PREFIX", "fingerprint_of",
-           "validate", "write"]
+__all__ = ["Fingerprint", "Package", "SheetInfo", "WriteResult", "MARKER_PREFIX", "SHEET_MARK",
+           "fingerprint_of", "validate", "write"]
 
 MARKER_PREFIX = "tocsin."
+SHEET_MARK = "_tocsin_owned"
+"""A hidden defined name scoped to each of tocsin's sheets: the sheet itself carries tocsin's mark, so a
+user's sheet made later under the same name (after deleting tocsin's) is not taken for tocsin's."""
 _MARKER_FORMAT = 1
 _CHUNK = 255
 _FMTID = "{D5CDD505-2E9C-101B-9397-08002B2CF9AE}"
@@ -250,8 +258,20 @@ class _Source:
         record.setdefault("state", {})
         return record, None
 
+    def marks(self) -> set[int]:
+        """Positions of the sheets that carry tocsin's mark (a hidden sheet-scoped defined name)."""
+        names = self.child(self.wb, "definedNames")
+        out = set()
+        for dn in (names if names is not None else []):
+            if (_local(dn) == "definedName" and dn.get("name", "").casefold() == SHEET_MARK.casefold()
+                    and (dn.get("localSheetId") or "").isdigit()):
+                out.add(int(dn.get("localSheetId")))
+        return out
+
     def _read_sheets(self) -> list[SheetInfo]:
         owned = {s.casefold() for s in self.marker["sheets"]}
+        marks = self.marks()
+        self.unmarked: list[str] = []
         out = []
         for el in self.sheets_el:
             if _local(el) != "sheet":
@@ -265,8 +285,11 @@ class _Source:
                 sheet_id = int(el.get("sheetId", "0"))
             except ValueError:
                 sheet_id = 0
+            listed = name.casefold() in owned
+            if listed and len(out) not in marks:
+                self.unmarked.append(name)
             out.append(SheetInfo(name, sheet_id, rid, part, kind, el.get("state", "visible"),
-                                 name.casefold() in owned))
+                                 listed and len(out) in marks))
         return out
 
     def graph(self) -> dict[str, list[str]]:
@@ -393,10 +416,14 @@ def _check_request(src: _Source, specs: Sequence[SheetSpec], remove: Sequence[st
         if name.casefold() in seen:
             raise InputError(f"sheet '{name}' is both written and removed")
     by_key = {s.name.casefold(): s for s in src.sheets}
-    hint = f" ({src.marker_problem})" if src.marker_problem else ""
     for name in [s.name for s in specs] + list(remove):
         info = by_key.get(name.casefold())
         if info is not None and not info.owned:
+            hint = f" ({src.marker_problem})" if src.marker_problem else ""
+            if info.name in src.unmarked:
+                hint = (f" (it has tocsin's name but not tocsin's mark, the hidden sheet-scoped name "
+                        f"{SHEET_MARK}: it was made by someone else; if it is an old tocsin sheet, delete it "
+                        "and tocsin writes it afresh)")
             raise OwnershipError(f"sheet '{info.name}' in '{src.label}' is not tocsin's (tocsin did not "
                                  f"create it){hint}; tocsin never overwrites or removes it. Rename that "
                                  "sheet, or choose another output sheet name")
@@ -503,7 +530,9 @@ def _plan(src: _Source, specs: Sequence[SheetSpec], state: dict, remove: Sequenc
         ct.set_override(part, CT.worksheet)
         _add_sheet_parts(plan, spec, part, taken, style_map, selected=(position == active))
 
-    # 5. recalculation on load, calc chain
+    # 5. tocsin's mark on each of its sheets, recalculation on load, calc chain
+    _mark_sheets(src, [(positions[s.name.casefold()] if s.name in plan.replaced else None, s.name)
+                       for s in specs], n_before=len(remaining))
     if specs or plan.removed:
         calc = src.child(wb, "calcPr")
         if calc is None:
@@ -537,6 +566,27 @@ def _plan(src: _Source, specs: Sequence[SheetSpec], state: dict, remove: Sequenc
     if ct.changed:
         plan.registry[src.ct_name] = serialize(ct.root)
     return plan
+
+
+def _mark_sheets(src: _Source, sheets: list[tuple[int | None, str]], *, n_before: int) -> None:
+    """Give each written sheet tocsin's mark: a hidden defined name scoped to it (``localSheetId`` is its
+    position; new sheets follow the ``n_before`` that stay)."""
+    marked = src.marks()
+    names = src.child(src.wb, "definedNames")
+    position = n_before
+    for pos, name in sheets:
+        if pos is None:
+            pos, position = position, position + 1
+        if pos in marked:
+            continue
+        if names is None:
+            names = etree.Element(_q(NS.main, "definedNames"))
+            _insert_wb_child(src.wb, names)
+        dn = etree.SubElement(names, _q(NS.main, "definedName"))
+        dn.set("name", SHEET_MARK)
+        dn.set("localSheetId", str(pos))
+        dn.set("hidden", "1")
+        dn.text = "'" + name.replace("'", "''") + "'!$A$1"
 
 
 def _changed(root: etree._Element, original: bytes) -> bool:
