@@ -293,78 +293,86 @@ class _Checker:
             last, prev = rank, name
 
     def _worksheet(self, sheet: str, part: str, n_xfs: int, n_dxfs: int) -> bool:
-        """Check one worksheet in a stream; return whether its tab is selected."""
+        """Check one worksheet in a stream (rows are checked and dropped as they end); return whether its
+        tab is selected."""
         where = f"sheet '{sheet}' ({part})"
-        children: list[str] = []
         selected = False
-        depth = 0
         last_row = 0
-        last_col = 0
+        columns: dict[str, int] = {}
+        tags = tuple(f"{{{NS.main}}}{t}" for t in ("row", "sheetView", "col", "cfRule"))
         with self.zip._zf.open(part) as fh:
-            ctx = etree.iterparse(fh, events=("start", "end"), resolve_entities=False, no_network=True,
+            ctx = etree.iterparse(fh, events=("end",), tag=tags, resolve_entities=False, no_network=True,
                                   huge_tree=False, load_dtd=False)
             try:
-                for event, el in ctx:
-                    local = etree.QName(el).localname
-                    if event == "start":
-                        depth += 1
-                        if depth == 2 and etree.QName(el).namespace == NS.main:
-                            children.append(local)
-                        elif depth == 3 and local == "row":
-                            r = el.get("r")
-                            row = int(r) if r is not None and r.isdigit() else last_row + 1
-                            if row <= last_row:
-                                self.bad(f"{where}: row {row} comes after row {last_row}")
-                                return selected
-                            last_row, last_col = row, 0
-                        continue
-                    if depth == 4 and local == "c":
-                        ref = el.get("r")
-                        if ref is not None:
-                            m = _REF.match(ref)
-                            if not m or int(m.group(2)) != last_row:
-                                self.bad(f"{where}: cell {ref} lies in row {last_row}")
-                                return selected
-                            col = _col_index(m.group(1))
-                        else:
-                            col = last_col + 1
-                        if col <= last_col:
-                            self.bad(f"{where}: cell {ref} comes after a cell at or right of it in row "
-                                     f"{last_row}")
+                for _, el in ctx:
+                    local = el.tag.rsplit("}", 1)[1]
+                    if local == "row":
+                        r = el.get("r")
+                        row = int(r) if r is not None and r.isdigit() else last_row + 1
+                        if row <= last_row:
+                            self.bad(f"{where}: row {row} comes after row {last_row}")
                             return selected
-                        last_col = col
+                        last_row = row
+                        problem = self._cells(el, row, n_xfs, columns)
+                        if problem:
+                            self.bad(f"{where}: {problem}")
+                            return selected
                         s = el.get("s")
                         if s is not None and (not s.isdigit() or int(s) >= n_xfs):
-                            self.bad(f"{where}: cell {ref} has style {s} but there are {n_xfs} cell formats")
-                            return selected
-                        el.clear()
-                    elif depth == 3 and local == "row":
-                        s = el.get("s")
-                        if s is not None and (not s.isdigit() or int(s) >= n_xfs):
-                            self.bad(f"{where}: row {last_row} has style {s} but there are {n_xfs}")
-                        el.clear()
+                            self.bad(f"{where}: row {row} has style {s} but there are {n_xfs} cell formats")
+                        el.clear(keep_tail=True)
+                        parent = el.getparent()
                         while el.getprevious() is not None:
-                            del el.getparent()[0]
-                    elif local == "sheetView" and el.get("tabSelected") in ("1", "true"):
-                        selected = True
+                            del parent[0]
+                    elif local == "sheetView":
+                        selected |= el.get("tabSelected") in ("1", "true")
                     elif local == "col":
                         s = el.get("style")
                         if s is not None and (not s.isdigit() or int(s) >= n_xfs):
                             self.bad(f"{where}: columns {el.get('min')}-{el.get('max')} have style {s} but "
                                      f"there are {n_xfs} cell formats")
-                    elif local == "cfRule" and el.get("dxfId") is not None:
+                    elif el.get("dxfId") is not None:
                         v = el.get("dxfId")
                         if not v.isdigit() or int(v) >= n_dxfs:
                             self.bad(f"{where}: a conditional format uses dxfId {v} but there are {n_dxfs}")
-                    depth -= 1
-                doctype = ctx.root.getroottree().docinfo.doctype if ctx.root is not None else ""
-                if doctype:
-                    self.bad(f"{where}: declares a document type; refused")
+                root = ctx.root
             except etree.XMLSyntaxError as exc:
                 self.bad(f"{where}: not well-formed XML ({exc})")
                 return selected
-        self._order(where, children, WORKSHEET_ORDER)
+        if root.getroottree().docinfo.doctype:
+            self.bad(f"{where}: declares a document type; refused")
+        self._order(where, [etree.QName(c).localname for c in root
+                            if isinstance(c.tag, str) and etree.QName(c).namespace == NS.main],
+                    WORKSHEET_ORDER)
         return selected
+
+    @staticmethod
+    def _cells(row_el, row: int, n_xfs: int, columns: dict[str, int]) -> str | None:
+        """What is wrong with the cells of one row (order, reference, style index), if anything."""
+        digits = str(row)
+        cut = -len(digits)
+        last = 0
+        for c in row_el:
+            ref = c.get("r")
+            if ref is None:
+                col = last + 1
+            else:
+                letters = ref[:cut]
+                if ref[cut:] != digits or not letters:
+                    m = _REF.match(ref)
+                    return f"cell {ref} lies in row {row}" if m else f"cell reference {ref!r} is not valid"
+                col = columns.get(letters)
+                if col is None:
+                    if not letters.isalpha() or not letters.isupper() or len(letters) > 3:
+                        return f"cell reference {ref!r} is not valid"
+                    col = columns[letters] = _col_index(letters)
+            if col <= last:
+                return f"cell {ref} comes after a cell at or right of it in row {row}"
+            last = col
+            s = c.get("s")
+            if s is not None and (not s.isdigit() or int(s) >= n_xfs):
+                return f"cell {ref} has style {s} but there are {n_xfs} cell formats"
+        return None
 
     def _chartsheet(self, sheet: str, part: str) -> bool:
         root = self.tree(part)
