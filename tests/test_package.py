@@ -844,3 +844,43 @@ def test_openxml_audit_judges(tmp_path, books, name):
     before = {str(e) for e in v.validate(str(books[name])).errors}
     after = {str(e) for e in v.validate(str(path)).errors}
     assert after - before == set()
+
+
+def test_formats_as_openpyxl_reads_them(tmp_path, books):
+    path = corpus.copy_book(books, "lo_resaved" if "lo_resaved" in books else "charts", tmp_path)
+    spec, data = corpus.forecast_spec()
+    warn = SheetSpec("W", (Cells(0, 0, (("failed: no data", "warning"), ("all good", "good"),
+                                        ("caution: statistical forecasts", "italic"))),
+                           Table(3, 0, ("d3", "int"), (Column([1 / 3], "dec3"), Column([4.0], "integer")))))
+    _write(path, [spec, warn])
+    wb = openpyxl.load_workbook(path)
+    ws = wb["Fc"]
+    assert ws["A4"].number_format == "yyyy-mm-dd" and ws["E4"].number_format == "0.0%"
+    assert ws["C4"].number_format == "0" and ws["D4"].number_format == "@"
+    best = 4 + int(np.argmax(data["prob"]))
+    assert ws[f"E{best}"].font.b and not ws["E4"].font.b
+    assert ws["A1"].font.b and ws["A1"].font.sz > ws["A4"].font.sz
+    assert ws["A3"].font.b and ws["A3"].border.bottom.style == "thin"
+    assert ws.sheet_properties.tabColor.rgb == "FF2F6B8F"
+    assert ws.column_dimensions["A"].width == 12
+    rules = [r for cf in ws.conditional_formatting for r in cf.rules]
+    assert [r.type for r in rules] == ["colorScale"]
+    assert str(next(iter(ws.conditional_formatting)).sqref) == "E4:E43"
+    w = wb["W"]
+    assert w["A1"].fill.fgColor.rgb == "FFF8D8D3" and w["A1"].font.color.rgb == "FF8E1B12"
+    assert w["A2"].fill.fgColor.rgb == "FFDCEFDA" and w["A3"].font.i
+    assert w["A5"].number_format == "0.000" and w["A5"].value == 1 / 3 and w["B5"].value == 4
+
+
+def test_pandas_columns_and_empty_sheet(tmp_path, books):
+    pd = pytest.importorskip("pandas")
+    s = pd.Series([1.5, None, 3.0])
+    d = pd.Series(pd.to_datetime(["2025-01-01", None, "2025-03-01"]))
+    path = corpus.copy_book(books, "charts", tmp_path)
+    p = Package.open(path)
+    res = p.write([SheetSpec("P", (Table(0, 0, ("v", "d"), (Column(s), Column(d))),)),
+                   SheetSpec("Empty", ())], state={})
+    assert res.added == ("P", "Empty") and validate(path) == []
+    rows = list(openpyxl.load_workbook(path)["P"].iter_rows(min_row=2, values_only=True))
+    assert rows == [(1.5, dt.datetime(2025, 1, 1)), (None, None), (3, dt.datetime(2025, 3, 1))]
+    assert openpyxl.load_workbook(path)["Empty"].max_row == 1
