@@ -57,6 +57,7 @@ import os
 import posixpath
 import tempfile
 import time
+import zipfile
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -814,6 +815,34 @@ def _cleanup_stale_temps(folder: Path, stem: str) -> None:
         pass
 
 
+def _digest(fh) -> tuple[str, int]:
+    """SHA-256 and size of a file read from its start in 1 MiB pieces."""
+    fh.seek(0)
+    sha = hashlib.sha256()
+    size = 0
+    while chunk := fh.read(1 << 20):
+        sha.update(chunk)
+        size += len(chunk)
+    return sha.hexdigest(), size
+
+
+def _copy_owner_and_mode(path: Path, tmp: Path) -> None:
+    """Give the new file the old one's permission bits (and owner and group where allowed)."""
+    try:
+        st = os.stat(path)
+    except OSError:
+        return
+    try:
+        os.chmod(tmp, st.st_mode & 0o7777)
+    except OSError:
+        pass
+    if hasattr(os, "chown"):
+        try:
+            os.chown(tmp, st.st_uid, st.st_gid)
+        except OSError:
+            pass
+
+
 def _fsync_dir(folder: Path) -> None:
     if os.name != "posix":
         return
@@ -898,17 +927,17 @@ def write(path: str | os.PathLike, sheets: Sequence[SheetSpec], *, state: dict,
             written_new = _emit(plan, fh)
             fh.flush()
             os.fsync(fh.fileno())
-            fh.seek(0)
-            out = fh.read()
-        check = ZipSource(out, tmp.name)  # the new package opens as a zip and has what we wrote
-        missing = [n for n in written_new if check.find(n) is None]
+            digest, size = _digest(fh)
+            try:  # the new package opens as a zip and holds what was written
+                with zipfile.ZipFile(fh) as check:
+                    present = {n.casefold() for n in check.namelist()}
+            except zipfile.BadZipFile as exc:
+                raise PackageError(f"internal error: the new package of '{label}' does not open") from exc
+        missing = [n for n in written_new if n.casefold() not in present]
         if missing:
-            raise PackageError(f"internal error: new package lacks {missing}")
+            raise PackageError(f"internal error: the new package of '{label}' lacks {missing}")
         _still_same(path, expect, label)
-        try:
-            os.chmod(tmp, os.stat(path).st_mode & 0o7777)
-        except OSError:
-            pass
+        _copy_owner_and_mode(path, tmp)
         try:
             os.replace(tmp, path)
         except OSError as exc:
@@ -921,7 +950,8 @@ def write(path: str | os.PathLike, sheets: Sequence[SheetSpec], *, state: dict,
             pass
         raise
     _fsync_dir(folder)
-    new_fp = fingerprint_of(out, os.stat(path))
+    st = os.stat(path)
+    new_fp = Fingerprint(st.st_size, st.st_mtime_ns, digest)
     return WriteResult(path, new_fp, tuple(plan.added), tuple(plan.replaced), tuple(plan.removed),
                        tuple(sorted(plan.registry)), tuple(written_new),
                        tuple(sorted(n for n in src.zip.names if n.casefold() in plan.deleted
