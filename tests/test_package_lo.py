@@ -19,9 +19,10 @@ import corpus
 import libreoffice
 import numpy as np
 import pytest
+from lxml import etree
 from python_calamine import CalamineWorkbook
 
-from watcher.package import Package, validate, write
+from watcher.package import SHEET_MARK, Package, validate, write
 
 pytestmark = [pytest.mark.libreoffice, pytest.mark.slow]
 
@@ -125,6 +126,9 @@ def test_round_trip_through_libreoffice(written, books, tmp_path):
         res = write(saved, [spec2], state={"job": name, "round": 2}, expect=p.fingerprint)
         assert res.replaced == ("Fc",)
         assert validate(saved) == [], name
+        marks = [dn for dn in etree.fromstring(zipfile.ZipFile(saved).read("xl/workbook.xml")).iter(
+            "{*}definedName") if dn.get("name") == SHEET_MARK]
+        assert [dn.get("hidden") for dn in marks] == ["1"], name
         assert corpus.lossless_problems(kept, saved, ("Fc",), ("Fc",)) == [], name
         charts_before = {n for n in zipfile.ZipFile(kept).namelist() if n.startswith("xl/charts/chart")}
         charts_after = {n for n in zipfile.ZipFile(saved).namelist() if n.startswith("xl/charts/chart")}

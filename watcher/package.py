@@ -579,6 +579,10 @@ def _mark_sheets(src: _Source, sheets: list[tuple[int | None, str]], *, n_before
         if pos is None:
             pos, position = position, position + 1
         if pos in marked:
+            for dn in names:  # a program may have shown the mark (hidden="false"): hide it again
+                if (_local(dn) == "definedName" and dn.get("name", "").casefold() == SHEET_MARK.casefold()
+                        and dn.get("localSheetId") == str(pos) and dn.get("hidden") not in ("1", "true")):
+                    dn.set("hidden", "1")
             continue
         if names is None:
             names = etree.Element(_q(NS.main, "definedNames"))
