@@ -717,7 +717,7 @@ def test_failure_leaves_no_temporary(tmp_path, books, monkeypatch):
     def boom(*a, **k):
         raise RuntimeError("disk full (simulated)")
 
-    monkeypatch.setattr(pkg.ZipWriter, "close", boom)
+    monkeypatch.setattr(zipio.ZipWriter, "close", boom)
     with pytest.raises(RuntimeError, match="simulated"):
         _write(path, [_simple("Fc", [1.0])])
     assert path.read_bytes() == before and not list(tmp_path.glob(".tocsin-*"))
