@@ -113,6 +113,7 @@ def make_plan(src: Source, specs: Sequence[SheetSpec], state: dict, remove: Sequ
     sheet_els = [el for el in src.sheets_el if _local(el) == "sheet"]
     old_parts: list[str] = []      # parts of replaced / removed sheets (their subtrees go)
     dropped_ids: set[int] = set()
+    next_id = 1 + max((s.sheet_id for s in src.sheets), default=0)  # ids of removed sheets are not reused
 
     # 1. removals (descending position, so positions of earlier sheets hold)
     doomed = sorted({i for i, s in enumerate(src.sheets) if s.owned and s.name.casefold() in
@@ -166,7 +167,6 @@ def make_plan(src: Source, specs: Sequence[SheetSpec], state: dict, remove: Sequ
 
     # 4. the sheets themselves
     active = _active_tab(src)
-    next_id = 1 + max((s.sheet_id for s in src.sheets), default=0)
     positions = {s.name.casefold(): i for i, s in enumerate(remaining)}
     n_user = len(remaining)
     for spec in specs:
