@@ -884,3 +884,19 @@ def test_pandas_columns_and_empty_sheet(tmp_path, books):
     rows = list(openpyxl.load_workbook(path)["P"].iter_rows(min_row=2, values_only=True))
     assert rows == [(1.5, dt.datetime(2025, 1, 1)), (None, None), (3, dt.datetime(2025, 3, 1))]
     assert openpyxl.load_workbook(path)["Empty"].max_row == 1
+
+
+def test_sheet_handed_to_the_user(tmp_path, books):
+    # owned=False: the job table `tocsin init` writes is the user's from the start.
+    path = corpus.copy_book(books, "charts", tmp_path)
+    res = Package.open(path).write([_simple("tocsin", ["job"], "text")], state={"s": 1}, owned=False)
+    assert res.added == ("tocsin",)
+    p = Package.open(path)
+    assert p.owned == () and "tocsin" in p.sheet_names and p.state == {"s": 1}
+    assert SHEET_MARK.encode() not in _member(path, "xl/workbook.xml") and validate(path) == []
+    with pytest.raises(OwnershipError, match="'tocsin'"):
+        _write(path, [_simple("tocsin", ["other"])])
+    _write(path, [_simple("Fc", [1.0])])
+    with pytest.raises(PackageError, match="only ever added"):
+        Package.open(path).write([_simple("Fc", [2.0])], state={}, owned=False)
+    assert corpus.lossless_problems(books["charts"], path, (), ("Fc", "tocsin")) == []

@@ -166,9 +166,10 @@ class Package:
         """Names of the sheets that are tocsin's, in tab order."""
         return tuple(s.name for s in self.sheets if s.owned)
 
-    def write(self, sheets: Sequence[SheetSpec], *, state: dict, remove: Sequence[str] = ()) -> WriteResult:
+    def write(self, sheets: Sequence[SheetSpec], *, state: dict, remove: Sequence[str] = (),
+              owned: bool = True) -> WriteResult:
         """:func:`write` to this package's path, expecting the bytes this object was read from."""
-        return write(self.path, sheets, state=state, remove=remove, expect=self.fingerprint)
+        return write(self.path, sheets, state=state, remove=remove, expect=self.fingerprint, owned=owned)
 
 
 def validate(path: str | os.PathLike) -> list[str]:
@@ -247,7 +248,7 @@ def _still_same(path: Path, expect: Fingerprint, label: str) -> None:
 
 
 def write(path: str | os.PathLike, sheets: Sequence[SheetSpec], *, state: dict,
-          remove: Sequence[str] = (), expect: Fingerprint | None) -> WriteResult:
+          remove: Sequence[str] = (), expect: Fingerprint | None, owned: bool = True) -> WriteResult:
     """Write tocsin's sheets into the workbook at ``path`` in one atomic replace.
 
     Parameters
@@ -263,6 +264,10 @@ def write(path: str | os.PathLike, sheets: Sequence[SheetSpec], *, state: dict,
     expect : Fingerprint or None
         The fingerprint of the bytes the caller read (``Package.fingerprint``); None skips that check
         (the check just before the replace still runs).
+    owned : bool
+        False hands the new sheets to the user (e.g. the job table ``tocsin init`` creates): they are
+        not recorded as tocsin's and carry no mark, so tocsin never rewrites or removes them. Such
+        sheets can only be added: a name that exists is an error.
 
     Returns
     -------
@@ -290,8 +295,8 @@ def write(path: str | os.PathLike, sheets: Sequence[SheetSpec], *, state: dict,
                                   "nothing was written, try again later")
     expect = fp
     src = Source(data, label)
-    check_request(src, sheets, remove)
-    plan = make_plan(src, sheets, state, remove)
+    check_request(src, sheets, remove, owned=owned)
+    plan = make_plan(src, sheets, state, remove, owned=owned)
     folder = path.parent
     _cleanup_stale_temps(folder, path.stem)
     try:

@@ -70,7 +70,8 @@ class Plan:
     deleted: set[str] = field(default_factory=set)             # casefolded names of dropped members
 
 
-def check_request(src: Source, specs: Sequence[SheetSpec], remove: Sequence[str]) -> None:
+def check_request(src: Source, specs: Sequence[SheetSpec], remove: Sequence[str], *,
+                  owned: bool = True) -> None:
     seen: dict[str, str] = {}
     for spec in specs:
         if not isinstance(spec, SheetSpec):
@@ -96,6 +97,12 @@ def check_request(src: Source, specs: Sequence[SheetSpec], remove: Sequence[str]
             raise OwnershipError(f"sheet '{info.name}' in '{src.label}' is not tocsin's (tocsin did not "
                                  f"create it){hint}; tocsin never overwrites or removes it. Rename that "
                                  "sheet, or choose another output sheet name")
+    if not owned:
+        for spec in specs:
+            info = by_key.get(spec.name.casefold())
+            if info is not None:
+                raise PackageError(f"sheet '{info.name}' already exists in '{src.label}'; a sheet handed "
+                                   "to the user (owned=False) is only ever added, never replaced")
     protection = src.child(src.wb, "workbookProtection")
     locked = protection is not None and protection.get("lockStructure", "0").lower() in ("1", "true")
     changes_structure = any(s.name.casefold() not in by_key for s in specs) or any(
@@ -106,7 +113,8 @@ def check_request(src: Source, specs: Sequence[SheetSpec], remove: Sequence[str]
                            "sheets")
 
 
-def make_plan(src: Source, specs: Sequence[SheetSpec], state: dict, remove: Sequence[str]) -> Plan:
+def make_plan(src: Source, specs: Sequence[SheetSpec], state: dict, remove: Sequence[str], *,
+              owned: bool = True) -> Plan:
     plan = Plan(src, list(specs))
     wb, wb_rels, ct = src.wb, src.wb_rels, src.ct
     by_key = {s.name.casefold(): s for s in src.sheets}
@@ -200,8 +208,9 @@ def make_plan(src: Source, specs: Sequence[SheetSpec], state: dict, remove: Sequ
         _add_sheet_parts(plan, spec, part, taken, style_map, selected=(position == active))
 
     # 5. tocsin's mark on each of its sheets, recalculation on load, calc chain
-    _mark_sheets(src, [(positions[s.name.casefold()] if s.name in plan.replaced else None, s.name)
-                       for s in specs], n_before=len(remaining))
+    if owned:
+        _mark_sheets(src, [(positions[s.name.casefold()] if s.name in plan.replaced else None, s.name)
+                           for s in specs], n_before=len(remaining))
     if specs or plan.removed:
         calc = src.child(wb, "calcPr")
         if calc is None:
@@ -212,8 +221,9 @@ def make_plan(src: Source, specs: Sequence[SheetSpec], state: dict, remove: Sequ
     _prune_calc_chain(plan, dropped_ids)
 
     # 6. tocsin's record (ownership + state)
-    owned = [s.name for s in remaining if s.owned or s.name in plan.replaced] + plan.added
-    record = {"format": MARKER_FORMAT, "sheets": sorted(dict.fromkeys(owned), key=str.casefold),
+    ours = [s.name for s in remaining if s.owned or s.name in plan.replaced]
+    ours += plan.added if owned else []
+    record = {"format": MARKER_FORMAT, "sheets": sorted(dict.fromkeys(ours), key=str.casefold),
               "state": state}
     text = _state_json(record).replace(" ", "\\u0020")  # no chunk may start or end with a space
     old = _state_json({**src.marker, "format": MARKER_FORMAT}).replace(" ", "\\u0020")
