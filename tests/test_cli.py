@@ -10,7 +10,6 @@ jobs compute on real data. Where a good job is written its numbers are checked a
 """
 from __future__ import annotations
 
-import inspect
 import json
 from pathlib import Path
 
@@ -341,11 +340,8 @@ def test_internal_error_without_traceback(tmp_path, capsys, monkeypatch):
         run_cli(capsys, "--debug", "refresh", str(tmp_path / "x.xlsx"))
 
 
-_HAS_UNOWNED = "owned" in inspect.signature(package.write).parameters
 
 
-@pytest.mark.xfail(not _HAS_UNOWNED, reason="package.write has no `owned` parameter yet (the job table "
-                   "tocsin init writes is the user's sheet, not tocsin's)", strict=True)
 def test_init_then_refresh(tmp_path, capsys):
     path = write_book(tmp_path / "new.xlsx", {"Macro": macrodata_rows()})
     code, out, err = run_cli(capsys, "init", str(path), "--sheet", "macro", "--value", "Real GDP",
