@@ -90,12 +90,9 @@ def _udf() -> Any:
 
 
 def _col(j: int) -> str:
-    s = ""
-    j += 1
-    while j:
-        j, r = divmod(j - 1, 26)
-        s = chr(65 + r) + s
-    return s
+    from watcher.sheetspec import col_letter
+
+    return col_letter(j)
 
 
 @dataclass(frozen=True)

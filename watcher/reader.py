@@ -53,6 +53,7 @@ from typing import Any
 import numpy as np
 
 from sheetfns.errors import InputError, PackageError
+from watcher.sheetspec import col_letter as column_letter  # one column-letter rule for reading and writing
 
 __all__ = ["ReaderError", "Header", "SheetData", "Book", "open_book", "read_sheet", "read_header",
            "column_letter", "column_index"]
@@ -74,18 +75,6 @@ class ReaderError(InputError):
 
 
 # --------------------------------------------------------------------------------------------- columns
-
-def column_letter(index: int) -> str:
-    """The letter of the 0-based column ``index`` (0 -> 'A', 27 -> 'AB')."""
-    if not 0 <= index < MAX_COLUMNS:
-        raise InputError(f"`index` must be a column index in 0..{MAX_COLUMNS - 1}; got {index!r}")
-    out = ""
-    index += 1
-    while index:
-        index, rem = divmod(index - 1, 26)
-        out = chr(65 + rem) + out
-    return out
-
 
 def column_index(letter: str) -> int:
     """The 0-based index of the column ``letter`` ('A' -> 0, 'xfd' -> 16383)."""
