@@ -12,7 +12,7 @@ from typing import Any, NamedTuple
 import numpy as np
 
 from sheetfns._scorebase import Quotient, paired_events
-from sheetfns.checks import _show
+from sheetfns.checks import _show, as_nonnegative
 from sheetfns.errors import InputError
 
 CATEGORICAL_KEYS: tuple[str, ...] = (
@@ -77,15 +77,7 @@ def confusion(actual: Any, forecast: Any) -> Confusion:
 
 
 def _count(value: Any, name: str) -> float:
-    if isinstance(value, (bool, np.bool_)):
-        raise InputError(f"`{name}` must be a count (a number >= 0); got {_show(value)}")
-    try:
-        x = float(value)
-    except (TypeError, ValueError) as exc:
-        raise InputError(f"`{name}` must be a count (a number >= 0); got {_show(value)}") from exc
-    if not math.isfinite(x) or x < 0:
-        raise InputError(f"`{name}` must be a count (a number >= 0); got {_show(value)}")
-    return x
+    return as_nonnegative(value, name, what="a count")
 
 
 def from_counts(hits: float, false_alarms: float, misses: float, correct_negatives: float
@@ -260,13 +252,7 @@ def _as_counts(table: Any) -> tuple[float, float, float, float]:
 
 
 def _cost(value: Any, name: str) -> float:
-    try:
-        x = float(value)
-    except (TypeError, ValueError) as exc:
-        raise InputError(f"`{name}` must be a cost (a number >= 0); got {_show(value)}") from exc
-    if isinstance(value, (bool, np.bool_)) or not math.isfinite(x) or x < 0:
-        raise InputError(f"`{name}` must be a cost (a number >= 0); got {_show(value)}")
-    return x
+    return as_nonnegative(value, name, what="a cost")
 
 
 def cost_cutoff(cost_false_alarm: float, cost_miss: float) -> float:

@@ -13,7 +13,7 @@ from typing import Any
 import numpy as np
 
 from sheetfns._scorebase import Quotient, UndefinedScoreWarning, paired_prob
-from sheetfns.checks import _show, as_events, as_int, same_length
+from sheetfns.checks import _show, as_events, as_int, as_nonnegative, same_length
 from sheetfns.errors import InputError
 
 
@@ -234,13 +234,7 @@ def wilson(successes: float, n: float, confidence: float = 0.95) -> tuple[float,
 
 
 def _number(value: Any, name: str) -> float:
-    try:
-        x = float(value)
-    except (TypeError, ValueError) as exc:
-        raise InputError(f"`{name}` must be a count (a number >= 0); got {_show(value)}") from exc
-    if isinstance(value, (bool, np.bool_)) or not math.isfinite(x) or x < 0:
-        raise InputError(f"`{name}` must be a count (a number >= 0); got {_show(value)}")
-    return x
+    return as_nonnegative(value, name, what="a count")
 
 
 #: Proportion scores with a Wilson interval: key -> (numerator, denominator) as count names.

@@ -107,6 +107,21 @@ def as_int(value: Any, name: str, *, minimum: int | None = None, maximum: int | 
     return i
 
 
+def as_nonnegative(value: Any, name: str, *, what: str = "a number") -> float:
+    """Return ``value`` as a finite float >= 0 (a count or a cost; booleans are refused), e.g.
+    "`hits` must be a count (a number >= 0); got -1"."""
+    message = f"`{name}` must be {what} (a number >= 0); got {_show(value)}"
+    if isinstance(value, (bool, np.bool_)):
+        raise InputError(message)
+    try:
+        x = float(value)
+    except (TypeError, ValueError) as exc:
+        raise InputError(message) from exc
+    if not np.isfinite(x) or x < 0:
+        raise InputError(message)
+    return x
+
+
 def last_observed(arr: np.ndarray) -> int:
     """Index of the last non-NaN value (-1 when all are NaN). Rows after it are future periods."""
     obs = np.flatnonzero(~np.isnan(arr))
