@@ -39,9 +39,9 @@ def main() -> int:
         pdf = tmp_path / "island_ferry.pdf"
         for page, name, width, height in PICTURES:
             stem = tmp_path / f"page{page}"
-            subprocess.run(["pdftoppm", "-r", str(DPI), "-png", "-singlefile", "-f", str(page), "-l", str(page),
-                            "-x", "0", "-y", "0", "-W", str(width), "-H", str(height), str(pdf), str(stem)],
-                           check=True, timeout=120)
+            crop = ["-x", "0", "-y", "0", "-W", str(width), "-H", str(height)]
+            subprocess.run(["pdftoppm", "-r", str(DPI), "-png", "-singlefile", "-f", str(page), "-l",
+                            str(page), *crop, str(pdf), str(stem)], check=True, timeout=120)
             shutil.copyfile(stem.with_suffix(".png"), HERE / name)
             print(HERE / name)
     return 0
