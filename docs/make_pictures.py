@@ -17,7 +17,7 @@ HERE = Path(__file__).resolve().parent
 ROOT = HERE.parent
 PDF_OPTIONS = 'pdf:calc_pdf_Export:{"SinglePageSheets":{"type":"boolean","value":"true"}}'
 # (sheet position in the workbook, output name, crop width and height in pixels at DPI)
-PICTURES = ((3, "forecast-sheet.png", 1500, 1150), (4, "profile-sheet.png", 1500, 1350))
+PICTURES = ((3, "forecast-sheet.png", 1500, 1150), (4, "profile-sheet.png", 1000, 960))
 DPI = 150
 
 
