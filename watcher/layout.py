@@ -267,6 +267,11 @@ def profile_sheet(ctx: SheetContext, table: Any, trend: Any, ev: Evaluation | No
     if ev is not None and ev.roc is not None:
         r = _roc(blocks, charts, r, ev)
     widths = {0: 14, **{j: 11 for j in range(1, len(header))}}
+    for block in blocks:  # every table header readable: a column as wide as its longest header
+        if isinstance(block, Table) and block.header is not None:
+            for j, h in enumerate(block.header):
+                col = block.col + j
+                widths[col] = max(widths.get(col, 11), min(len(h) + 2, 20))
     return SheetSpec(ctx.profile_sheet, tuple(blocks), col_widths=widths, charts=tuple(charts),
                      color_scales=tuple(scales))
 
