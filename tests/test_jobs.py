@@ -463,7 +463,7 @@ def test_dates_must_increase(tmp_path):
     data[5][0], data[6][0] = data[6][0], data[5][0]
     msg = _resolve_error(tmp_path, BASE, data)
     assert msg.startswith("`date_column` must hold increasing dates; got 'Date' in row 2 of sheet tocsin;")
-    assert "row 6 (2024-01-05) is earlier than row 5 (2024-01-06)" in msg
+    assert msg.endswith("cell A7 (2024-01-05) of sheet 'Data' is earlier than cell A6 (2024-01-06)")
 
 
 def test_predictor_needs_numbers(tmp_path):
@@ -512,3 +512,12 @@ def test_sample_workbooks_tables_are_valid_and_resolve():
     pump = seen["high level alarm"]
     assert pump.cutoff == pytest.approx(0.2) and pump.known_ahead == ("planned_maintenance",)
     assert all(len(j.output_sheet) <= 31 and len(j.profile_sheet) <= 31 for j in seen.values())
+
+
+def test_duplicate_dates_name_the_cells_of_the_data_sheet(tmp_path):
+    # data[k] is sheet row k + 1 (the header is row 1): the message names sheet cells, not positions
+    data = _data_rows()
+    data[31][0] = data[30][0]
+    msg = _resolve_error(tmp_path, BASE, data)
+    assert msg == ("`date_column` must hold increasing dates; got 'Date' in row 2 of sheet tocsin; cells "
+                   "A31 and A32 of sheet 'Data' both hold 2024-01-30")

@@ -807,6 +807,16 @@ def resolve(job: Job, data: Any, *, sheet: str = TABLE_SHEET) -> Job:
             cell = data.cell(job.date_column, i)
             raise fail("date_column", f"must hold a date in every data row; cell {cell} has none",
                        job.date_column)
+        back = (dates[1:] <= dates[:-1]).nonzero()[0]
+        if back.size:                           # name the cells (partition only knows positions)
+            i = int(back[0]) + 1
+            a, b = data.cell(job.date_column, i - 1), data.cell(job.date_column, i)
+            shown = [str(d)[:10] if str(d).endswith("T00:00:00") else str(d).replace("T", " ")
+                     for d in (dates[i - 1], dates[i])]
+            problem = (f"cells {a} and {b} of sheet {data.sheet!r} both hold {shown[1]}"
+                       if dates[i] == dates[i - 1] else
+                       f"cell {b} ({shown[1]}) of sheet {data.sheet!r} is earlier than cell {a} ({shown[0]})")
+            raise fail("date_column", "must hold increasing dates", job.date_column, hint=problem)
         index = dates
         freq = infer_frequency(dates) if dates.size >= 2 else None
     for name in job.predictors + job.known_ahead:
