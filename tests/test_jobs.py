@@ -521,3 +521,11 @@ def test_duplicate_dates_name_the_cells_of_the_data_sheet(tmp_path):
     msg = _resolve_error(tmp_path, BASE, data)
     assert msg == ("`date_column` must hold increasing dates; got 'Date' in row 2 of sheet tocsin; cells "
                    "A31 and A32 of sheet 'Data' both hold 2024-01-30")
+
+
+def test_default_season_longer_than_the_data_says_it_is_the_default(tmp_path):
+    # five months of data: the monthly default season 12 (DESIGN.md §7) does not fit; the user typed none
+    data = _data_rows(n=5, future=0, monthly=True)
+    msg = _resolve_error(tmp_path, BASE, data)
+    assert msg == ("`season` must be shorter than the 5 observed rows; got a blank in row 2 of sheet tocsin; "
+                   "the default for monthly data is 12: give a shorter season (1 for none) or add data")

@@ -841,8 +841,12 @@ def resolve(job: Job, data: Any, *, sheet: str = TABLE_SHEET) -> Job:
                    f"observation allow at most {max(last - max(job.lags, 1) + 1, 0)} with lags={job.lags}",
                    job.horizon)
     if season >= parts.train_size + parts.valid_size:
-        raise fail("season", f"must be shorter than the {parts.train_size + parts.valid_size} observed rows",
-                   season)
+        n = parts.train_size + parts.valid_size
+        if job.season is None:                  # the default, not the user's: say where it came from
+            raise JobError(r.blank("season", f"must be shorter than the {n} observed rows", hint=(
+                f"the default for {freq} data is {season}: give a shorter season (1 for none) or add "
+                f"data")).args[0])
+        raise fail("season", f"must be shorter than the {n} observed rows", season)
     return dataclasses.replace(job, season=season, cycle=cycle, frequency=freq,
                                train_size=parts.train_size, resolved=True)
 
