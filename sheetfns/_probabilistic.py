@@ -246,7 +246,7 @@ def probabilistic(actual: Any, prob: Any, reference: Any = None, *,
         with np.errstate(divide="ignore"):
             logp = np.where(a == 1.0, np.log(np.maximum(p, LOG_LOSS_EPS)),
                             np.maximum(np.log1p(-p), floor))
-        loss = -float(np.mean(logp))
+        loss = 0.0 - float(np.mean(logp))     # 0.0, not -0.0, for a perfect forecast
     rel, res, unc = _decompose(a, p, bins, q)[:3]
     if r is None:
         bs_ref = unc

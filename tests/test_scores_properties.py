@@ -302,3 +302,9 @@ def test_docstring_examples_run():
         result = doctest.testmod(module, extraglobs={"np": np}, optionflags=doctest.ELLIPSIS)
         assert result.failed == 0, module.__name__
     assert doctest.testmod(_categorical).attempted >= 4
+
+
+def test_perfect_forecast_log_loss_is_positive_zero():
+    # common practice: the logarithmic score's range is [0, inf); a perfect forecast printed "-0.000"
+    out = scores.probabilistic(np.array([1.0, 0.0, 1.0]), np.array([1.0, 0.0, 1.0]))
+    assert out["log_loss"] == 0.0 and math.copysign(1.0, out["log_loss"]) == 1.0
