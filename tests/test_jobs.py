@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import datetime as dt
 import importlib.util
+import zipfile
 from pathlib import Path
 
 import pytest
@@ -529,3 +530,23 @@ def test_default_season_longer_than_the_data_says_it_is_the_default(tmp_path):
     msg = _resolve_error(tmp_path, BASE, data)
     assert msg == ("`season` must be shorter than the 5 observed rows; got a blank in row 2 of sheet tocsin; "
                    "the default for monthly data is 12: give a shorter season (1 for none) or add data")
+
+
+def test_event_typed_as_a_formula_reads_blank_and_the_message_says_why(tmp_path):
+    # '=alarm' typed without an apostrophe is the formula =alarm; a program saves its error result
+    # (#NAME?, ECMA-376 Part 1 §18.3.1.4 cell type "e"), which reads as a blank cell
+    path = _book(tmp_path, _table({**BASE, "event": "placeholder"}))
+    with zipfile.ZipFile(path) as z:
+        parts = {i.filename: z.read(i.filename) for i in z.infolist()}
+    name = next(n for n in parts if n.startswith("xl/worksheets/") and b"placeholder" in parts[n])
+    xml = parts[name].decode()
+    start = xml.rindex("<c ", 0, xml.index("placeholder"))
+    end = xml.index("</c>", start) + 4
+    ref = xml[start:end].split('r="')[1].split('"')[0]
+    parts[name] = (xml[:start] + f'<c r="{ref}" t="e"><f>alarm</f><v>#NAME?</v></c>' + xml[end:]).encode()
+    with zipfile.ZipFile(path, "w", zipfile.ZIP_DEFLATED) as z:
+        for n, b in parts.items():
+            z.writestr(n, b)
+    err = _one_error(read_job_table(path))
+    assert err.setting == "event" and err.message.startswith("`event` is required; got a blank in row 2")
+    assert "typed after an apostrophe, '=alarm" in err.message

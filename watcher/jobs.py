@@ -313,7 +313,10 @@ def _enabled(r: _Row) -> bool:
 def _criterion(r: _Row) -> tuple[str, Criterion]:
     v = r.get("event")
     if v is None:
-        raise r.blank("event", "is required", hint="give a criterion such as '>=1150', 'fall' or '=alarm'")
+        raise r.blank("event", "is required", hint=(
+            "give a criterion such as '>=1150', 'fall' or '=alarm' (one that starts with = is typed "
+            "after an apostrophe, '=alarm: typed plainly it becomes a formula, whose error result reads "
+            "as a blank)"))
     if isinstance(v, bool):
         text = "=TRUE" if v else "=FALSE"
     elif isinstance(v, (int, float)):
