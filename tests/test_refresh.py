@@ -607,3 +607,23 @@ def test_job_without_dates_and_a_text_criterion(tmp_path, capsys):
     # the text job's events are the declines, counted independently with pandas
     df = macrodata.load_pandas().data
     assert np.nansum(cores["phase"].events) == (df.realgdp.diff() < 0).sum()
+
+
+def test_two_rows_with_one_job_name(tmp_path, capsys):
+    """The first row's job is written; the second is reported under "<name> (row 3)" without a sheet
+    (its red sheet would have the first job's name), and a second refresh rewrites nothing."""
+    twin = {**GDP_JOB, "event": "rise"}
+    path = macro_book(tmp_path / "twins.xlsx", GDP_JOB, twin)
+    code, out, err = run_cli(capsys, "refresh", "--json", str(path))
+    rep = json.loads(out)[0]
+    assert code == 1 and rep["status"] == "refreshed", rep
+    jobs_ = {j["job"]: j for j in rep["jobs"]}
+    assert jobs_["gdp fall"]["status"] == "ok"
+    assert jobs_["gdp fall (row 3)"]["status"] == "failed"
+    assert "`job` must be unique" in jobs_["gdp fall (row 3)"]["message"]
+    names = openpyxl.load_workbook(path, read_only=True).sheetnames
+    assert names == ["Macro", "tocsin", "gdp fall forecast", "gdp fall profile"]
+    check_book(path, all_valid=False)
+    before = file_state(path)
+    code, out, err = run_cli(capsys, "refresh", str(path))
+    assert code == 1 and out.startswith("twins.xlsx: unchanged") and file_state(path) == before

@@ -251,11 +251,18 @@ def evaluate_book(path: Path, progress: Progress = None, *, known: dict[str, str
     outcomes: list[JobOutcome] = []
     with Book(path) as book:
         table = jobs_mod.read_job_table(book)
+        # a failed row's red sheet must not take a sheet or a record that another job has (two rows
+        # with one job name): such a row is reported under "<name> (row N)" and gets no sheet
+        names = {j.name.casefold() for j in table.jobs}
+        claimed = {s.casefold() for j in table.jobs for s in (j.output_sheet, j.profile_sheet)}
         for row, errs in table.failed().items():
             name = next((e.job for e in errs if e.job), None)
             if name is None:
                 continue
             sheet, prof = jobs_mod.output_names(name)
+            if name.casefold() in names:
+                name = f"{name} (row {row})"
+            names.add(name.casefold())
             blocked = _blocked(name, row, (sheet,), taken, known)
             if blocked is not None:
                 outcomes.append(blocked)
@@ -263,7 +270,8 @@ def evaluate_book(path: Path, progress: Progress = None, *, known: dict[str, str
             msg = "; ".join(e.message for e in errs)
             fp = _digest(["error", msg], None)
             outcomes.append(JobOutcome(None, name, sheet, prof, fp, error=msg,
-                                       unchanged=known.get(name) == fp))
+                                       blocked=sheet.casefold() in claimed, unchanged=known.get(name) == fp))
+            claimed.add(sheet.casefold())
         for i, job in enumerate(table.jobs, 1):
             sheets = (job.output_sheet,) + ((job.profile_sheet,) if job.date_column is not None else ())
             blocked = _blocked(job.name, job.row, sheets, taken, known)
