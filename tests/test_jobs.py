@@ -550,3 +550,13 @@ def test_event_typed_as_a_formula_reads_blank_and_the_message_says_why(tmp_path)
     err = _one_error(read_job_table(path))
     assert err.setting == "event" and err.message.startswith("`event` is required; got a blank in row 2")
     assert "typed after an apostrophe, '=alarm" in err.message
+
+
+def test_a_job_typed_into_the_blank_row_above_init_s_note(tmp_path):
+    # `tocsin init` writes header, job, blank row, note: a second job typed into the blank row must
+    # not turn the note into a third job
+    rows = jobs.job_table_rows([BASE])
+    rows[2] = [{**BASE, "job": "calm", "event": "<5"}.get(s) for s in SETTINGS]
+    table = read_job_table(_book(tmp_path, rows))
+    assert table.ok, table.errors
+    assert [j.name for j in table.jobs] == ["busy", "calm"]

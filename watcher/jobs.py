@@ -689,6 +689,9 @@ def read_job_table(book: Any, *, sheet: str = TABLE_SHEET) -> JobTable:
     for offset, cells in enumerate(rows[1:], start=1):
         if all(v is None for v in cells):
             break                                       # the table ends at the first blank row
+        if isinstance(cells[0], str) and cells[0].strip() == TABLE_NOTE and \
+                all(v is None for v in cells[1:]):
+            break                       # tocsin init's note, reached when a job filled the blank row
         row = top + offset
         values = {known[j]: v for j, v in enumerate(cells) if j in known}
         r = _Row(values, row, table)
