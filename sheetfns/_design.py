@@ -189,8 +189,8 @@ def build(y: np.ndarray, *, values: Any = None, predictors: Mapping[str, Any] | 
             cols.append(col)
             terms.append(_WEEKDAYS[d])
         if present:
-            notes.append(f"weekday terms compare with {_WEEKDAYS[present[0]]} (the first weekday in "
-                         f"the data)")
+            notes.append(f"weekday terms compare with {_WEEKDAYS[present[0]]} (the first day of the "
+                         f"week, Monday to Sunday, that the data hold)")
     if trend:
         cols.append(tau.copy())
         terms.append("trend")

@@ -425,3 +425,13 @@ def test_import_stays_light():
             "print(sorted(m for m in ('statsmodels', 'scipy', 'pandas') if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "[]"
+
+
+def test_weekday_note_names_the_reference_day_not_the_first_date():
+    # 2022-01-01 was a Saturday (common practice: the calendar); the reference day is still Monday,
+    # and the note must not read as "the weekday of the first date"
+    dates = pd.date_range("2022-01-01", periods=21, freq="D")
+    d = build(np.zeros(21), dates=dates, lags=0, weekday=True)
+    assert d.terms[1] == "Tuesday"
+    assert ("weekday terms compare with Monday (the first day of the week, Monday to Sunday, that the data "
+            "hold)") in d.notes
