@@ -455,8 +455,8 @@ def test_date_column_must_hold_a_date_in_every_row(tmp_path):
     data = _data_rows()
     data[11][0] = None
     msg = _resolve_error(tmp_path, BASE, data)
-    assert msg == ("`date_column` must hold a date in every data row; cell A12 has none; got 'Date' in "
-                   "row 2 of sheet tocsin")
+    assert msg == ("`date_column` must hold a date in every data row; cell A12 of sheet 'Data' has none; "
+                   "got 'Date' in row 2 of sheet tocsin")
 
 
 def test_dates_must_increase(tmp_path):

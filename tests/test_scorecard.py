@@ -92,3 +92,23 @@ def test_constant_series_still_scores_the_benchmarks():
     assert ev.best == "majority"
     assert "No method beat the majority share" in ev.verdict
     assert any("majority share" in n for n in ev.notes)  # the logistic model says it fell back
+
+
+def test_a_full_tie_marks_no_best_value():
+    """Every method is perfect on a constant series: no scorecard row may single one out."""
+    import datetime as dt
+
+    from watcher import layout, report
+    from watcher.sheetspec import Table
+
+    ev = evaluate(np.zeros(300), train_size=200)
+    text = report.scorecard_text(ev)
+    assert "*" not in text.split("accuracy")[1].splitlines()[0]  # 100% everywhere: no star
+    ctx = layout.SheetContext(job="j", sheet="j forecast", profile_sheet="j profile", data_sheet="D",
+                              value_name="v", event_text="v =1", horizon=1,
+                              refreshed_at=dt.datetime(2026, 1, 1))
+    spec = layout.forecast_sheet(ctx, ev, dates=None, values=np.zeros(300), events=np.zeros(300))
+    score_tables = [b for b in spec.blocks if isinstance(b, Table) and b.col == 0 and b.width > 3]
+    accuracy_table = next(t for t in score_tables if "accuracy" in t.columns[0].values)
+    i = list(accuracy_table.columns[0].values).index("accuracy")
+    assert not any(c.bold is not None and c.bold[i] for c in accuracy_table.columns[1:])

@@ -811,7 +811,8 @@ def resolve(job: Job, data: Any, *, sheet: str = TABLE_SHEET) -> Job:
         if nat.any():
             i = int(nat.nonzero()[0][0])
             cell = data.cell(job.date_column, i)
-            raise fail("date_column", f"must hold a date in every data row; cell {cell} has none",
+            raise fail("date_column", f"must hold a date in every data row; cell {cell} of sheet "
+                       f"{data.sheet!r} has none",
                        job.date_column)
         back = (dates[1:] <= dates[:-1]).nonzero()[0]
         if back.size:                           # name the cells (partition only knows positions)

@@ -169,7 +169,7 @@ def _scorecard(blocks: list[Any], r: int, ev: Evaluation) -> int:
         best = np.zeros(table.shape, dtype=bool)
         for i, (*_, better) in enumerate(rows):
             finite = np.isfinite(table[i])
-            if better and finite.any():
+            if better and finite.any() and np.ptp(table[i][finite]) > 0:  # a full tie marks none
                 target = np.max(table[i][finite]) if better == "hi" else np.min(table[i][finite])
                 best[i] = finite & (table[i] == target)
         cols = [Column(tuple(label for _, label, _, _ in rows))]

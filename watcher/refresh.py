@@ -216,7 +216,9 @@ def _job_report(o: JobOutcome, records: dict[str, dict]) -> JobReport:
     rec = _summary(o) if not o.unchanged else records.get(o.name, {})
     status = "unchanged" if o.unchanged else "ok"
     if o.error is not None or rec.get("error"):
-        return JobReport(o.name, "failed", o.error or rec.get("error", ""), sheet=o.sheet)
+        # a blocked job (its sheet is a user's, or another job's) has no sheet of its own
+        return JobReport(o.name, "failed", o.error or rec.get("error", ""),
+                         sheet=None if o.blocked else o.sheet)
     return JobReport(o.name, status, rec.get("verdict", ""), next_forecast=rec.get("next_probability"),
                      next_period=rec.get("next_period"), best_method=rec.get("best_method"), sheet=o.sheet,
                      evaluation=o.evaluation)

@@ -75,7 +75,8 @@ def scorecard_text(ev: Any) -> str:
     for key, label, fmt, better in SCORE_ROWS:
         vals = [ev.scorecard[m.key].get(key, math.nan) for m in ev.methods]
         finite = [v for v in vals if not math.isnan(v)]
-        best = (max(finite) if better == "hi" else min(finite)) if better and finite else None
+        best = ((max(finite) if better == "hi" else min(finite))
+                if better and finite and max(finite) > min(finite) else None)  # a full tie marks none
         cells = [(_cell(v, fmt) + ("*" if best is not None and v == best else " ")).rjust(w)
                  for v, w in zip(vals, widths, strict=True)]
         out.append(label.ljust(first) + "".join(cells))
