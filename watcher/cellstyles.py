@@ -19,7 +19,7 @@ from dataclasses import dataclass
 
 from lxml import etree
 
-from watcher.opc import NS
+from watcher.opc import NS, insert_in_order, local_name
 
 __all__ = ["StyleDef", "STYLE_DEFS", "ensure_styles", "minimal_styles"]
 
@@ -64,8 +64,7 @@ def _q(name: str) -> str:
     return f"{{{_M}}}{name}"
 
 
-def _local(el: etree._Element) -> str:
-    return etree.QName(el).localname if isinstance(el.tag, str) else ""
+_local = local_name
 
 
 def _key(el: etree._Element) -> tuple:
@@ -80,15 +79,8 @@ def _section(root: etree._Element, name: str) -> etree._Element:
     for el in root:
         if _local(el) == name:
             return el
-    rank = _SHEET_ORDER.index(name)
     new = etree.Element(_q(name))
-    for i, el in enumerate(root):
-        local = _local(el)
-        if local in _SHEET_ORDER and _SHEET_ORDER.index(local) > rank:
-            root.insert(i, new)
-            break
-    else:
-        root.append(new)
+    insert_in_order(root, new, _SHEET_ORDER)
     return new
 
 

@@ -83,6 +83,23 @@ _PARSER = etree.XMLParser(resolve_entities=False, no_network=True, huge_tree=Fal
                           dtd_validation=False, remove_blank_text=False)
 
 
+def local_name(el: etree._Element) -> str:
+    """The tag of ``el`` without its namespace ('' for comments and processing instructions)."""
+    return etree.QName(el).localname if isinstance(el.tag, str) else ""
+
+
+def insert_in_order(parent: etree._Element, el: etree._Element, order: tuple[str, ...]) -> None:
+    """Insert ``el`` among ``parent``'s children where the schema's sequence ``order`` (local names)
+    puts it: before the first child that comes later in ``order``, else at the end."""
+    rank = order.index(local_name(el))
+    for i, child in enumerate(parent):
+        local = local_name(child)
+        if local in order and order.index(local) > rank:
+            parent.insert(i, el)
+            return
+    parent.append(el)
+
+
 def parse_xml(data: bytes, part: str, label: str) -> etree._Element:
     """Parse one XML part safely; raise PackageError naming the file and part on any problem."""
     if b"<!DOCTYPE" in data[:4096] or b"<!ENTITY" in data[:4096]:

@@ -15,7 +15,17 @@ from sheetfns.errors import InputError, OwnershipError, PackageError
 from watcher import charts as _charts
 from watcher import sheetxml as _sheetxml
 from watcher.cellstyles import ensure_styles, minimal_styles
-from watcher.opc import CT, NS, REL, Rels, parse_xml, relative_target, rels_part_of, serialize
+from watcher.opc import (
+    CT,
+    NS,
+    REL,
+    Rels,
+    insert_in_order,
+    parse_xml,
+    relative_target,
+    rels_part_of,
+    serialize,
+)
 from watcher.pkgsource import MARKER_FORMAT, MARKER_PREFIX, SHEET_MARK, Source, _local, _q
 from watcher.sheetspec import SheetSpec, check_sheet_name
 from watcher.zipio import ZipWriter
@@ -47,13 +57,7 @@ def _free_name(pattern: str, taken: set[str]) -> str:
 
 
 def _insert_wb_child(wb: etree._Element, el: etree._Element) -> None:
-    rank = _WB_ORDER.index(_local(el))
-    for i, child in enumerate(wb):
-        local = _local(child)
-        if local in _WB_ORDER and _WB_ORDER.index(local) > rank:
-            wb.insert(i, el)
-            return
-    wb.append(el)
+    insert_in_order(wb, el, _WB_ORDER)
 
 
 @dataclass

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 from lxml import etree
 
 from sheetfns.errors import PackageError
-from watcher.opc import CT, NS, REL, ContentTypes, Rels, parse_xml, rels_part_of
+from watcher.opc import CT, NS, REL, ContentTypes, Rels, local_name, parse_xml, rels_part_of
 from watcher.zipio import ZipSource
 
 __all__ = ["MARKER_FORMAT", "MARKER_PREFIX", "SHEET_MARK", "SheetInfo", "Source"]
@@ -44,8 +44,7 @@ def _q(ns: str, name: str) -> str:
     return f"{{{ns}}}{name}"
 
 
-def _local(el) -> str:
-    return etree.QName(el).localname if isinstance(el.tag, str) else ""
+_local = local_name
 
 
 class Source:
