@@ -6,11 +6,13 @@ practice: ``~$name`` beside an open workbook, LibreOffice's ``.~lock.name#``).
 """
 from __future__ import annotations
 
+import functools
 import threading
 import time
 from pathlib import Path
 
 import pytest
+from test_watch import wait_for as _wait_for
 from watchdog.events import (
     DirModifiedEvent,
     FileClosedEvent,
@@ -30,13 +32,8 @@ BOOK = Path("/share/ferry.xlsx")
 OTHER = Path("/share/bakery.xlsm")
 
 
-def wait_for(predicate, timeout: float = 5.0, interval: float = 0.005) -> bool:
-    deadline = time.monotonic() + timeout
-    while not predicate():
-        if time.monotonic() > deadline:
-            return False
-        time.sleep(interval)
-    return True
+# the shared helper, with a shorter deadline and a finer poll: no disk here, only synthetic events
+wait_for = functools.partial(_wait_for, timeout=5.0, interval=0.005)
 
 
 class FakeProbe:
