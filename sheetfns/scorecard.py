@@ -134,6 +134,18 @@ class Evaluation:
         return {m.key: (float(m.forecast[t]), float(m.prob[t])) for m in self.methods}
 
 
+def best_mask(row: Any, better: str) -> np.ndarray:
+    """Which methods hold the best value of one scorecard row (``better``: "hi", "lo" or "").
+
+    NaN never counts; a row where every method ties (or nothing is better) marks none."""
+    row = np.asarray(row, dtype=float)
+    finite = np.isfinite(row)
+    if not better or not finite.any() or np.ptp(row[finite]) == 0:
+        return np.zeros(row.shape, dtype=bool)
+    target = np.max(row[finite]) if better == "hi" else np.min(row[finite])
+    return finite & (row == target)
+
+
 def _cutoff(prob: np.ndarray, cutoff: float) -> np.ndarray:
     out = np.where(prob > cutoff, 1.0, 0.0)
     out[np.isnan(prob)] = np.nan

@@ -26,13 +26,12 @@ from __future__ import annotations
 import datetime as dt
 import math
 import textwrap
-from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 
-from sheetfns.scorecard import SCORE_ROWS, Evaluation
+from sheetfns.scorecard import SCORE_ROWS, Evaluation, best_mask
 from watcher.sheetspec import Cells, ChartSpec, Column, Range, Ref, Series, SheetSpec, Table
 
 CAUTION = ("Caution: these are statistical forecasts from past data, not a substitute for official "
@@ -166,12 +165,7 @@ def _scorecard(blocks: list[Any], r: int, ev: Evaluation) -> int:
             continue
         table = np.array([[ev.scorecard[k].get(key, math.nan) for k in keys] for key, *_ in rows],
                          dtype=float)
-        best = np.zeros(table.shape, dtype=bool)
-        for i, (*_, better) in enumerate(rows):
-            finite = np.isfinite(table[i])
-            if better and finite.any() and np.ptp(table[i][finite]) > 0:  # a full tie marks none
-                target = np.max(table[i][finite]) if better == "hi" else np.min(table[i][finite])
-                best[i] = finite & (table[i] == target)
+        best = np.array([best_mask(table[i], better) for i, (*_, better) in enumerate(rows)])
         cols = [Column(tuple(label for _, label, _, _ in rows))]
         cols += [Column(table[:, j], fmt, bold=best[:, j]) for j in range(len(keys))]
         header = ("measure", *(m.label for m in ev.methods)) if first else None
@@ -345,6 +339,3 @@ def _period_label(by: str, p: Any) -> str:
         return f"W{int(p):02d}"
     return str(p)
 
-
-def sheet_names(specs: Sequence[SheetSpec]) -> list[str]:
-    return [s.name for s in specs]

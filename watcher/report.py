@@ -4,7 +4,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from sheetfns.scorecard import SCORE_ROWS
+from sheetfns.scorecard import SCORE_ROWS, best_mask
 
 
 def _pct(p: float | None) -> str:
@@ -74,11 +74,9 @@ def scorecard_text(ev: Any) -> str:
            "".ljust(first) + "".join(h[1].rjust(w) for h, w in zip(heads, widths, strict=True))]
     for key, label, fmt, better in SCORE_ROWS:
         vals = [ev.scorecard[m.key].get(key, math.nan) for m in ev.methods]
-        finite = [v for v in vals if not math.isnan(v)]
-        best = ((max(finite) if better == "hi" else min(finite))
-                if better and finite and max(finite) > min(finite) else None)  # a full tie marks none
-        cells = [(_cell(v, fmt) + ("*" if best is not None and v == best else " ")).rjust(w)
-                 for v, w in zip(vals, widths, strict=True)]
+        marks = best_mask(vals, better)
+        cells = [(_cell(v, fmt) + ("*" if mark else " ")).rjust(w)
+                 for v, mark, w in zip(vals, marks, widths, strict=True)]
         out.append(label.ljust(first) + "".join(cells))
     return "\n".join(line.rstrip() for line in out)
 
