@@ -7,7 +7,7 @@ most a sheet holds below its header) x 4 columns: an hourly timestamp, a float l
 and 'n/a' text cells, a 0/1 alarm with some TRUE/FALSE cells, and an integer count. Then, each in a
 fresh interpreter (so import costs and peak memory are measured alone), it times
 
-* ``tocsin``          -- ``watcher.reader.read_sheet`` (python-calamine), dates and 3 value columns;
+* ``tocsin``          -- ``watcher.refresh.reader.read_sheet`` (python-calamine), dates and 3 value columns;
 * ``tocsin-openpyxl`` -- the same reader on its openpyxl fallback;
 * ``openpyxl``        -- the reference: openpyxl ``load_workbook(read_only=True, data_only=True)``,
   ``iter_rows(values_only=True)`` into lists, then numpy arrays (what one writes without tocsin),
@@ -63,7 +63,7 @@ def run_one(approach: str, path: Path) -> dict:
     t0 = time.perf_counter()
     if approach.startswith("tocsin"):
         sys.path.insert(0, str(ROOT))
-        from watcher.reader import read_sheet
+        from watcher.refresh.reader import read_sheet
 
         backend = "openpyxl" if approach == "tocsin-openpyxl" else "calamine"
         data = read_sheet(path, "Data", ["Level", "Alarm", "Count"], date_column="Time", backend=backend)

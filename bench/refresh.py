@@ -13,8 +13,8 @@
 
 The reference approach for both: what one writes without tocsin's reader and writer -- openpyxl
 ``load_workbook`` (full mode: the workbook is to be saved), the data columns read from its cells, the
-**same core and the same sheets** (``watcher.refresh.compute_job`` and the SheetSpecs of
-``watcher.layout``, written cell by cell with their number formats; no charts), ``save``. Every run is
+**same core and the same sheets** (``watcher.refresh.workbook.compute_job`` and the SheetSpecs of
+``watcher.refresh.layout``, written cell by cell with their number formats; no charts), ``save``. Every run is
 a fresh process on a fresh copy; wall time and peak resident memory come from ``os.wait4``. The ratio
 printed is reference time / tocsin time (target >= 5x on the full-height sheet).
 """
@@ -84,9 +84,10 @@ def reference_refresh(path: Path) -> None:
     import openpyxl
     from openpyxl.styles import Font
 
-    from watcher import jobs, refresh
-    from watcher.reader import Book, Header, SheetData
-    from watcher.sheetspec import Cells, Table
+    from watcher.refresh import jobs
+    from watcher.refresh import workbook as refresh
+    from watcher.refresh.reader import Book, Header, SheetData
+    from watcher.xlsx.spec import Cells, Table
 
     with Book(path) as book:  # the job table (a few cells) with tocsin's own reader
         table = jobs.read_job_table(book)

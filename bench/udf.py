@@ -4,7 +4,7 @@ Run:  python bench/udf.py [ROWS]
 
 Prints, for each function, the time of one call on a range as the add-in hands it over (a list of
 one-element rows, None for blanks), and the ratio of the vectorised range conversion
-(``sheetfns._coerce``) against a naive cell-by-cell conversion (one ``float()`` per cell, the
+(``sheetfns.udf.coerce``) against a naive cell-by-cell conversion (one ``float()`` per cell, the
 obvious way to write it), both measured in this run. Not a timed test: figures depend on the machine.
 """
 from __future__ import annotations
@@ -21,8 +21,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 from _timing import best_of  # noqa: E402
 
-from sheetfns import _coerce as c  # noqa: E402
 from sheetfns import udf as U  # noqa: E402
+from sheetfns.udf import coerce as c  # noqa: E402
 
 
 def naive_column(rows: list[list[object]]) -> np.ndarray:

@@ -91,9 +91,9 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--poll", type=float, default=None)
     args = parser.parse_args(argv)
 
-    from watcher.refresh import refresh_workbook
-    from watcher.watch import Watcher
-    from watcher.watchlog import WatchLog
+    from watcher.refresh.workbook import refresh_workbook
+    from watcher.watch.log import WatchLog
+    from watcher.watch.service import Watcher
 
     versions = build_versions(args.rows, args.repeats + 1)
     with tempfile.TemporaryDirectory() as tmp:

@@ -6,7 +6,7 @@
 
 What is timed (each approach in its own process, so peak memory is its own):
 
-* ``tocsin write``    -- ``watcher.package.write`` of the table as a new sheet into a small existing
+* ``tocsin write``    -- ``watcher.xlsx.package.write`` of the table as a new sheet into a small existing
   workbook (open, build, fsync, replace: end to end);
 * ``tocsin refresh``  -- the same call again on the result: the big sheet of tocsin's is replaced;
 * ``openpyxl write-only`` -- a new workbook in openpyxl's write-only mode, ``append`` per row;
@@ -64,7 +64,7 @@ def make_columns(n: int, seed: int = 2025) -> dict[str, np.ndarray]:
 
 
 def _spec(cols: dict):
-    from watcher.sheetspec import Column, SheetSpec, Table
+    from watcher.xlsx.spec import Column, SheetSpec, Table
 
     fmts = ("date", "general", "integer", "text", "integer", "integer", "integer", "dec3", "percent",
             "integer")
@@ -106,7 +106,7 @@ def child(name: str, n: int, folder: Path) -> dict:
     cols = make_columns(n)
     out: dict = {}
     if name == "tocsin":
-        from watcher.package import Package, write
+        from watcher.xlsx.package import Package, write
 
         spec = _spec(cols)
         path = folder / "tocsin.xlsx"

@@ -23,8 +23,7 @@ DPI = 150
 
 def main() -> int:
     sys.path.insert(0, str(ROOT))
-    from watcher import refresh
-
+    from watcher.refresh import workbook as refresh
     with tempfile.TemporaryDirectory() as tmp:
         tmp_path = Path(tmp)
         book = tmp_path / "island_ferry.xlsx"

@@ -90,7 +90,7 @@ def _udf() -> Any:
 
 
 def _col(j: int) -> str:
-    from watcher.sheetspec import col_letter
+    from watcher.xlsx.spec import col_letter
 
     return col_letter(j)
 
@@ -204,7 +204,6 @@ def plan() -> Demo:
     udf = _udf()
     from sheetfns import events as events_mod
     from sheetfns import partition, scorecard
-
     samples = _make_samples()
     rows = samples.ferry_rows(np.random.default_rng(samples.SEEDS["island_ferry"]))
     data = rows[1:]

@@ -7,7 +7,7 @@ Public API (DESIGN.md §4):
   honest notes for data that do not allow a plain fit (separation, a constant target, missing values,
   collinear columns).
 * :func:`forecast` -- the probability forecast of an event series, aligned to the target row, with a
-  coefficient table and notes. Its design matrix is documented in :mod:`sheetfns._design`; the
+  coefficient table and notes. Its design matrix is documented in :mod:`sheetfns._logit.design`; the
   estimation schemes (fixed, roll-forward, every N origins) in the docstring of :func:`forecast`.
 
 References
@@ -26,7 +26,8 @@ from typing import Any
 
 import numpy as np
 
-from sheetfns import _design, _irls
+from sheetfns._logit import design as _design
+from sheetfns._logit import irls as _irls
 from sheetfns.checks import as_events, as_int, last_observed
 from sheetfns.errors import InputError
 
@@ -336,7 +337,7 @@ def forecast(y: Any, *, values: Any = None, predictors: Mapping[str, Any] | None
     """Logistic probability forecast of an event series, aligned to the target row.
 
     ``prob[t]`` is the forecast for period t made at origin t - horizon: its design row (see
-    :mod:`sheetfns._design`) and its coefficients use only observations at or before t - horizon
+    :mod:`sheetfns._logit.design`) and its coefficients use only observations at or before t - horizon
     (``known_ahead`` values at t excepted: that is what they are).
 
     Parameters
@@ -359,7 +360,7 @@ def forecast(y: Any, *, values: Any = None, predictors: Mapping[str, Any] | None
     lags : int, default 1
         Event lags y[t-horizon], ..., y[t-horizon-lags+1]; 0 for none.
     cycle : float, optional
-        Period of the Fourier terms in the units of :mod:`sheetfns._design` (365.25 for a year of
+        Period of the Fourier terms in the units of :mod:`sheetfns._logit.design` (365.25 for a year of
         daily rows); None for no Fourier terms.
     harmonics : int, default 2
         Number of sine/cosine pairs.
@@ -429,7 +430,7 @@ def forecast(y: Any, *, values: Any = None, predictors: Mapping[str, Any] | None
     design = _design.build(yy, values=values, predictors=predictors, known_ahead=known_ahead,
                            dates=dates, horizon=horizon, lags=lags, cycle=cycle, harmonics=harmonics,
                            weekday=bool(weekday), trend=bool(trend))
-    from sheetfns._rolling import run
+    from sheetfns._logit.rolling import run
 
     return run(yy, design, last=last, horizon=horizon, train_size=train_size, every=every)
 

@@ -19,7 +19,8 @@ This module only re-exports; the work is in ``_categorical``, ``_probabilistic``
 """
 from __future__ import annotations
 
-from sheetfns._categorical import (
+from sheetfns._scoring.base import UndefinedScoreWarning
+from sheetfns._scoring.categorical import (
     CATEGORICAL_KEYS,
     Confusion,
     categorical,
@@ -28,7 +29,7 @@ from sheetfns._categorical import (
     expected_cost,
     from_counts,
 )
-from sheetfns._probabilistic import (
+from sheetfns._scoring.probabilistic import (
     LOG_LOSS_EPS,
     PROBABILISTIC_KEYS,
     RocPoints,
@@ -36,9 +37,8 @@ from sheetfns._probabilistic import (
     probabilistic,
     roc_points,
 )
-from sheetfns._registry import SCORE_INFO, SCORE_KEYS, ScoreInfo
-from sheetfns._scorebase import UndefinedScoreWarning
-from sheetfns._significance import diebold_mariano, mcnemar, wilson, wilson_intervals
+from sheetfns._scoring.registry import SCORE_INFO, SCORE_KEYS, ScoreInfo
+from sheetfns._scoring.significance import diebold_mariano, mcnemar, wilson, wilson_intervals
 
 __all__ = [
     "CATEGORICAL_KEYS", "Confusion", "LOG_LOSS_EPS", "PROBABILISTIC_KEYS", "RocPoints",

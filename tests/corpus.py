@@ -334,7 +334,7 @@ def forecast_spec(name: str = "Fc", *, n: int = 40, seed: int = 7, charts: bool 
     The first value cell is B4 (``FORMULA_TARGET``) and holds 0.1."""
     import numpy as np
 
-    from watcher.sheetspec import Cells, ChartSpec, Column, Range, Series, SheetSpec, Table
+    from watcher.xlsx.spec import Cells, ChartSpec, Column, Range, Series, SheetSpec, Table
 
     rng = np.random.default_rng(seed)
     dates = np.arange(np.datetime64("2024-12-25"), np.datetime64("2024-12-25") + n)
@@ -482,7 +482,7 @@ def profile_spec(name: str = "Fc profile"):
     points with their curve."""
     import numpy as np
 
-    from watcher.sheetspec import ChartSpec, Column, Range, Series, SheetSpec, Table
+    from watcher.xlsx.spec import ChartSpec, Column, Range, Series, SheetSpec, Table
 
     rng = np.random.default_rng(5)
     months = ["Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec"]

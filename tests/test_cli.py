@@ -32,8 +32,8 @@ from test_refresh import (
 )
 
 from sheetfns.scorecard import METHOD_LABELS, SCORE_ROWS
-from watcher import package
-from watcher.report import _two_lines
+from watcher.cli.tables import _two_lines
+from watcher.xlsx import package
 
 
 def no_traceback(*texts: str) -> None:
@@ -318,15 +318,13 @@ def test_init_errors(tmp_path, capsys, args, says):
 def test_debug_shows_the_traceback(tmp_path):
     from sheetfns.errors import TocsinError
     from watcher import cli
-
     with pytest.raises(TocsinError):
         cli.main(["--debug", "init", str(tmp_path / "no.xlsx"), "--sheet", "S", "--value", "V",
                   "--event", ">1"])
 
 
 def test_internal_error_without_traceback(tmp_path, capsys, monkeypatch):
-    from watcher import refresh
-
+    from watcher.refresh import workbook as refresh
     def broken(*args, **kwargs):
         raise RuntimeError("something we did not expect")
 

@@ -1,6 +1,6 @@
-"""watcher.jobs: the job table of DESIGN.md §7 -- defaults, one test per documented error, the
+"""watcher.refresh.jobs: the job table of DESIGN.md §7 -- defaults, one test per documented error, the
 closest-name suggestion, a good job beside a bad one, enabled TRUE/FALSE/blank, dates in `validation`,
-and the data-dependent checks of :func:`watcher.jobs.resolve`.
+and the data-dependent checks of :func:`watcher.refresh.jobs.resolve`.
 
 The defaults checked here are the ones DESIGN.md §7 fixes (season 7/52/12/4/1 and cycle
 365.25/52.18/12/none by date frequency; cutoff from the costs as cFA / (cFA + cMiss), the static
@@ -18,9 +18,9 @@ import pytest
 from openpyxl import Workbook
 
 from sheetfns.errors import JobError, TocsinError
-from watcher import jobs
-from watcher.jobs import SETTINGS, read_job_table, resolve
-from watcher.reader import open_book
+from watcher.refresh import jobs
+from watcher.refresh.jobs import SETTINGS, read_job_table, resolve
+from watcher.refresh.reader import open_book
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_workbooks"
 START = dt.date(2024, 1, 1)

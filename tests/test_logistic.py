@@ -23,7 +23,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from sheetfns import logistic
-from sheetfns._design import build, time_axis
+from sheetfns._logit.design import build, time_axis
 from sheetfns.errors import InputError
 
 sm = pytest.importorskip("statsmodels.api")

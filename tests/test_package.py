@@ -24,11 +24,11 @@ from lxml import etree
 from python_calamine import CalamineWorkbook
 
 from sheetfns.errors import ConcurrentEditError, InputError, OwnershipError, PackageError
-from watcher import package as pkg
-from watcher import zipio
-from watcher.package import MARKER_PREFIX, SHEET_MARK, Package, validate, write
-from watcher.sheetspec import Cells, Column, SheetSpec, Table, check_sheet_name
-from watcher.sheetxml import date_serials, escape_text
+from watcher.xlsx import archive as zipio
+from watcher.xlsx import package as pkg
+from watcher.xlsx.package import MARKER_PREFIX, SHEET_MARK, Package, validate, write
+from watcher.xlsx.spec import Cells, Column, SheetSpec, Table, check_sheet_name
+from watcher.xlsx.worksheet import date_serials, escape_text
 
 MAIN = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
 

@@ -20,8 +20,8 @@ import numpy as np
 import pytest
 from python_calamine import CalamineWorkbook
 
-from watcher.package import Package, validate, write
-from watcher.sheetspec import Column, SheetSpec, Table
+from watcher.xlsx.package import Package, validate, write
+from watcher.xlsx.spec import Column, SheetSpec, Table
 
 pytestmark = pytest.mark.skipif(os.name != "posix" or "fork" not in multiprocessing.get_all_start_methods(),
                                 reason="needs fork and SIGKILL")

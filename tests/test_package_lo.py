@@ -22,7 +22,7 @@ import pytest
 from lxml import etree
 from python_calamine import CalamineWorkbook
 
-from watcher.package import SHEET_MARK, Package, validate, write
+from watcher.xlsx.package import SHEET_MARK, Package, validate, write
 
 pytestmark = [pytest.mark.libreoffice, pytest.mark.slow]
 

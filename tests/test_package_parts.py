@@ -14,9 +14,9 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from python_calamine import CalamineWorkbook
 
-from watcher.package import Package, write
-from watcher.sheetspec import Cells, Column, SheetSpec, Table
-from watcher.sheetxml import worksheet_chunks
+from watcher.xlsx.package import Package, write
+from watcher.xlsx.spec import Cells, Column, SheetSpec, Table
+from watcher.xlsx.worksheet import worksheet_chunks
 
 GOLDEN = (
     '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'

@@ -1,4 +1,4 @@
-"""watcher.reader: columns by header or letter, dates in both date systems, text cells read as missing
+"""watcher.refresh.reader: columns by header or letter, dates in both date systems, text cells read as missing
 with a warning, trailing rows, errors naming workbook, sheet and column, and the openpyxl fallback.
 
 External references: the date systems of ECMA-376 (Office Open XML, 5th ed., 2016), Part 1, 18.17.4.1
@@ -19,8 +19,15 @@ import xlsxwriter
 from openpyxl import Workbook, load_workbook
 
 from sheetfns.errors import InputError, PackageError, TocsinError
-from watcher import reader
-from watcher.reader import ReaderError, column_index, column_letter, open_book, read_header, read_sheet
+from watcher.refresh import reader
+from watcher.refresh.reader import (
+    ReaderError,
+    column_index,
+    column_letter,
+    open_book,
+    read_header,
+    read_sheet,
+)
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_workbooks"
 BACKENDS = ("calamine", "openpyxl")

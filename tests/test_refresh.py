@@ -3,7 +3,7 @@
 For every job of every sample (copied to tmp_path first), the forecast and profile sheets written by
 ``watcher.cli.main(["refresh", ...])`` are read back with two independent readers (openpyxl and
 python-calamine) and compared **exactly** (DESIGN.md §8: round-trip precision) with the core run
-directly on the data read by :mod:`watcher.reader`: the public benchmark functions
+directly on the data read by :mod:`watcher.refresh.reader`: the public benchmark functions
 (``sheetfns.benchmarks``), the public logistic forecast (``sheetfns.logistic.forecast``), the
 scorecard of ``sheetfns.scorecard.evaluate`` and ``sheetfns.profile.rate_table``. A second refresh
 rewrites nothing; appending rows moves "data through" and the next forecast.
@@ -34,9 +34,10 @@ import python_calamine
 from sheetfns import benchmarks, logistic, profile
 from sheetfns.events import flag
 from sheetfns.scorecard import METHOD_LABELS, SCORE_ROWS, Evaluation, Settings, evaluate
-from watcher import cli, jobs
-from watcher.layout import CAUTION, TABLE_COL
-from watcher.reader import Book
+from watcher import cli
+from watcher.refresh import jobs
+from watcher.refresh.layout import CAUTION, TABLE_COL
+from watcher.refresh.reader import Book
 
 ROOT = Path(__file__).resolve().parent.parent
 SAMPLES = ROOT / "sample_workbooks"
@@ -422,8 +423,7 @@ def test_sheets_hold_the_cores_numbers(refreshed, name):
 
 
 def test_output_sheets_are_tocsins_and_user_sheets_come_first(refreshed):
-    from watcher import package
-
+    from watcher.xlsx import package
     for path in refreshed["paths"]:
         pkg = package.Package.open(path)
         with Book(path) as book:
@@ -541,8 +541,7 @@ def _edit_job_table(path: Path, edit) -> None:
 def test_job_table_edits(tmp_path, capsys):
     """Only the job whose row changed is recomputed; a disabled job keeps its sheets; a deleted job's
     sheets go; --force rewrites everything."""
-    from watcher import package
-
+    from watcher.xlsx import package
     other = {**GDP_JOB, "job": "unemployment up", "value_column": "Unemployment", "event": "rise"}
     path = macro_book(tmp_path / "edits.xlsx", GDP_JOB, other)
     code, out, err = run_cli(capsys, "refresh", str(path))

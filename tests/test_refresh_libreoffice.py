@@ -21,9 +21,10 @@ import pytest
 from test_refresh import GDP_JOB, SAMPLE_NAMES, SAMPLES, core_reference, macro_book
 
 from sheetfns.scorecard import SCORE_ROWS
-from watcher import cli, jobs
-from watcher.layout import CAUTION, TABLE_COL
-from watcher.reader import Book
+from watcher import cli
+from watcher.refresh import jobs
+from watcher.refresh.layout import CAUTION, TABLE_COL
+from watcher.refresh.reader import Book
 
 pytestmark = [pytest.mark.slow, pytest.mark.libreoffice]
 PERCENT = re.compile(r"^-?\d+\.\d%$")

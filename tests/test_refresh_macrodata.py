@@ -62,7 +62,6 @@ def macro(tmp_path_factory):
 @pytest.fixture(scope="module")
 def sheets(macro):
     from watcher import cli
-
     assert cli.main(["refresh", str(macro["path"])]) == 0
     return {name: read_sheet(grid_openpyxl(macro["path"], f"{name} forecast"))
             for name in ("gdp fall", "gdp fall costly")}

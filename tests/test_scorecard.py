@@ -98,8 +98,9 @@ def test_a_full_tie_marks_no_best_value():
     """Every method is perfect on a constant series: no scorecard row may single one out."""
     import datetime as dt
 
-    from watcher import layout, report
-    from watcher.sheetspec import Table
+    from watcher.cli import tables as report
+    from watcher.refresh import layout
+    from watcher.xlsx.spec import Table
 
     ev = evaluate(np.zeros(300), train_size=200)
     text = report.scorecard_text(ev)

@@ -296,8 +296,9 @@ def test_all_nan_rows_give_zero_counts_and_nan_scores():
 def test_docstring_examples_run():
     import doctest
 
-    from sheetfns import _categorical, _probabilistic, _significance
-
+    from sheetfns._scoring import categorical as _categorical
+    from sheetfns._scoring import probabilistic as _probabilistic
+    from sheetfns._scoring import significance as _significance
     for module in (_categorical, _probabilistic, _significance):
         result = doctest.testmod(module, extraglobs={"np": np}, optionflags=doctest.ELLIPSIS)
         assert result.failed == 0, module.__name__

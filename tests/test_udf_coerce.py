@@ -1,4 +1,4 @@
-"""Range coercion for the spreadsheet functions (sheetfns._coerce): shapes, cell values, arguments,
+"""Range coercion for the spreadsheet functions (sheetfns.udf.coerce): shapes, cell values, arguments,
 results and error text. Pure Python: no xlwings needed."""
 from __future__ import annotations
 
@@ -11,8 +11,8 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from sheetfns import _coerce as c
 from sheetfns.errors import CriterionError, InputError
+from sheetfns.udf import coerce as c
 
 
 # ---------------------------------------------------------------- shapes

@@ -121,9 +121,9 @@ def _table_below(ws, first_text: str, col: int = 1):
 
 @pytest.fixture(scope="module")
 def watcher_sheets(tmp_path_factory):
-    if importlib.util.find_spec("watcher.refresh") is None:
+    if importlib.util.find_spec("watcher.refresh.workbook") is None:
         pytest.skip("watcher/refresh.py is not there yet: the comparison with the watcher's sheet needs it")
-    from watcher.refresh import refresh_workbook
+    from watcher.refresh.workbook import refresh_workbook
 
     book = tmp_path_factory.mktemp("ferry") / FERRY.name
     shutil.copyfile(FERRY, book)

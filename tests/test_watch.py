@@ -1,7 +1,7 @@
 """The watcher end to end with real files, real observers and a fake refresh that keeps the contract.
 
-The fake (``FakeRefresh``) behaves like ``watcher.refresh.refresh_workbook`` as far as the watcher can
-tell: it fingerprints the inputs (every zip member but its own marker), answers "unchanged" when the
+The fake (``FakeRefresh``) behaves like ``watcher.refresh.workbook.refresh_workbook`` as far as the watcher
+can tell: it fingerprints the inputs (every zip member but its own marker), answers "unchanged" when the
 fingerprint matches what it recorded (its own last write included), answers "conflict" when the file
 changed while it computed, raises ``PackageError`` for a file that is not a zip, and otherwise writes a
 marker member into the workbook atomically (``.tocsin-*.tmp`` in the same folder, then replace), as the
@@ -24,8 +24,8 @@ from pathlib import Path
 import pytest
 
 from sheetfns.errors import PackageError
-from watcher.watch import Watcher
-from watcher.watchlog import WatchLog
+from watcher.watch.log import WatchLog
+from watcher.watch.service import Watcher
 
 QUIET = 0.4
 MARKER = "tocsin/refreshed.txt"
@@ -448,7 +448,7 @@ def test_native_observer_falls_back_to_polling(share, monkeypatch):
             raise OSError(28, "inotify watch limit reached")
 
     monkeypatch.setattr(watchdog.observers, "Observer", Refusing)
-    monkeypatch.setattr("watcher.watch.FALLBACK_POLL", 0.2)
+    monkeypatch.setattr("watcher.watch.service.FALLBACK_POLL", 0.2)
     book = share / "ferry.xlsx"
     with Rig(share, initial=False) as rig:
         save_by_rename(book, "v1")

@@ -24,8 +24,8 @@ from watchdog.events import (
     FileOpenedEvent,
 )
 
-from watcher.debounce import Debouncer, is_workbook_name, owner_file_candidates, workbook_of_owner_file
-from watcher.watch import _Forwarder
+from watcher.watch.debounce import Debouncer, is_workbook_name, owner_file_candidates, workbook_of_owner_file
+from watcher.watch.service import _Forwarder
 
 QUIET = 0.1
 BOOK = Path("/share/ferry.xlsx")

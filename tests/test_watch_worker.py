@@ -9,8 +9,8 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from sheetfns.errors import PackageError
-from watcher.refresh_worker import Outcome, RefreshWorker
-from watcher.watchlog import WatchLog
+from watcher.watch.log import WatchLog
+from watcher.watch.worker import Outcome, RefreshWorker
 
 A = Path("/share/ferry.xlsx")
 B = Path("/share/bakery.xlsx")
@@ -204,8 +204,8 @@ def test_importing_the_watcher_stays_light():
     import subprocess
     import sys
 
-    code = ("import sys, watcher.watch; print(sorted(m for m in ('watchdog', 'pandas', 'statsmodels', "
-            "'numpy', 'scipy', 'watcher.refresh') if m in sys.modules))")
+    code = ("import sys, watcher.watch.service; print(sorted(m for m in ('watchdog', 'pandas', "
+            "'statsmodels', 'numpy', 'scipy', 'watcher.refresh.workbook') if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60,
                          cwd=Path(__file__).resolve().parent.parent)
     assert out.returncode == 0, out.stderr
@@ -216,8 +216,8 @@ def test_workbook_without_job_table_is_told_once(tmp_path):
     """A workbook with no job table in a watched folder: one line on stderr, not one per save."""
     import io
 
-    from watcher.refresh_worker import Outcome
-    from watcher.watchlog import WatchLog
+    from watcher.watch.log import WatchLog
+    from watcher.watch.worker import Outcome
 
     stream = io.StringIO()
     log = WatchLog(stream, tmp_path / "log.jsonl")

@@ -12,7 +12,7 @@ from typing import Any
 
 import numpy as np
 
-from sheetfns._scorebase import Quotient, UndefinedScoreWarning, paired_prob
+from sheetfns._scoring.base import Quotient, UndefinedScoreWarning, paired_prob
 from sheetfns.checks import _show, as_events, as_int, as_nonnegative, same_length
 from sheetfns.errors import InputError
 

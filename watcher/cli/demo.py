@@ -13,7 +13,7 @@ EXTRAS = ("formulas_demo.xlsx",)  # spreadsheet-function demo: opened on a deskt
 
 def samples_dir() -> Path:
     """Where the sample workbooks are: inside the installed package, or in a source checkout."""
-    here = Path(__file__).resolve().parent
+    here = Path(__file__).resolve().parents[1]  # the watcher package
     for cand in (here / "_samples", here.parent / "sample_workbooks"):
         if (cand / SAMPLES[0]).exists():
             return cand
@@ -22,8 +22,8 @@ def samples_dir() -> Path:
 
 
 def run_demo(target: Path, *, progress=None, out=sys.stdout) -> int:
-    from watcher import refresh, report
-
+    from watcher.cli import tables as report
+    from watcher.refresh import workbook as refresh
     src = samples_dir()
     target = Path(target)
     target.mkdir(parents=True, exist_ok=True)

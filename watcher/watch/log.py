@@ -21,7 +21,7 @@ from datetime import datetime
 from pathlib import Path
 from typing import IO, Any
 
-from watcher.refresh_worker import Outcome
+from watcher.watch.worker import Outcome
 
 __all__ = ["WatchLog"]
 

@@ -53,7 +53,7 @@ from typing import Any
 import numpy as np
 
 from sheetfns.errors import InputError, PackageError
-from watcher.sheetspec import col_letter as column_letter  # one column-letter rule for reading and writing
+from watcher.xlsx.spec import col_letter as column_letter  # one column-letter rule for reading and writing
 
 __all__ = ["ReaderError", "Header", "SheetData", "Book", "open_book", "read_sheet", "read_header",
            "column_letter", "column_index"]

@@ -48,7 +48,8 @@ Two stages
 ----------
 :func:`read_job_table` checks everything the workbook's structure tells: settings, types, ranges,
 criteria, sheet and column names (against the header row of the data sheet). :func:`resolve` then
-checks a job against its data (read by :mod:`watcher.reader`) and fills the defaults that depend on it:
+checks a job against its data (read by :mod:`watcher.refresh.reader`) and fills the defaults that
+depend on it:
 ``season`` and ``cycle`` from the frequency of the dates (``sheetfns.partition.infer_frequency``), and
 the training / validation split, which must leave rows on both sides (``sheetfns.partition.split``).
 Errors name the row, the setting and the value::
@@ -466,7 +467,7 @@ def _norm_setting(text: Any) -> str:
 
 
 def _letter(j: int) -> str:
-    from watcher.reader import column_letter
+    from watcher.refresh.reader import column_letter
 
     return column_letter(j)
 
@@ -561,7 +562,7 @@ def _parse_row(r: _Row, book: Any, data_sheets: set[str]) -> Job:
 
     # the data sheet and its columns
     if sheet is not None:
-        from watcher.reader import ReaderError
+        from watcher.refresh.reader import ReaderError
 
         try:
             sheet = book.resolve_sheet(sheet)
@@ -646,8 +647,8 @@ def read_job_table(book: Any, *, sheet: str = TABLE_SHEET) -> JobTable:
 
     Parameters
     ----------
-    book : path-like or watcher.reader.Book
-        The workbook, or an open :class:`~watcher.reader.Book` (pass the book the refresh reads the
+    book : path-like or watcher.refresh.reader.Book
+        The workbook, or an open :class:`~watcher.refresh.reader.Book` (pass the book the refresh reads the
         data from: each sheet is parsed once).
     sheet : str, default 'tocsin'
         The name of the job table's sheet (matched case-insensitively).
@@ -662,7 +663,7 @@ def read_job_table(book: Any, *, sheet: str = TABLE_SHEET) -> JobTable:
     JobError
         The workbook has no job table sheet, or the sheet is empty.
     """
-    from watcher.reader import Book, ReaderError
+    from watcher.refresh.reader import Book, ReaderError
 
     if isinstance(book, (str, Path)):
         with Book(book) as opened:
@@ -769,7 +770,7 @@ def resolve(job: Job, data: Any, *, sheet: str = TABLE_SHEET) -> Job:
     ----------
     job : Job
         From :func:`read_job_table`.
-    data : watcher.reader.SheetData
+    data : watcher.refresh.reader.SheetData
         The job's columns: ``job.columns`` read with ``date_column=job.date_column`` and
         ``text_columns=job.text_columns``.
     sheet : str

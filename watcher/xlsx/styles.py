@@ -1,6 +1,6 @@
 """The cell formats tocsin's sheets use, added to a workbook's ``xl/styles.xml`` without renumbering.
 
-Each named format of :data:`watcher.sheetspec.FORMATS` (optionally bold) becomes one cell format record
+Each named format of :data:`watcher.xlsx.spec.FORMATS` (optionally bold) becomes one cell format record
 (``xf``) in ``cellXfs``. :func:`ensure_styles` looks for a record that already says the same thing (same
 number format code, font, fill and border, no alignment or protection) and reuses it; only what is
 missing is *appended* to ``numFmts``, ``fonts``, ``fills``, ``borders`` and ``cellXfs``, so every index
@@ -19,7 +19,7 @@ from dataclasses import dataclass
 
 from lxml import etree
 
-from watcher.opc import NS, insert_in_order, local_name
+from watcher.xlsx.opc import NS, insert_in_order, local_name
 
 __all__ = ["StyleDef", "STYLE_DEFS", "ensure_styles", "minimal_styles"]
 

@@ -11,19 +11,19 @@ Public API
     ``sheets`` (:class:`SheetInfo`), ``owned`` (names of tocsin's sheets), ``date1904``, ``state`` (the
     small dict tocsin keeps in the package) and ``fingerprint`` (size, mtime_ns, sha256 of the bytes read).
 ``write(path, sheets, *, state, remove=(), expect)`` (also ``Package.write``)
-    One atomic write of all of tocsin's sheets (:class:`~watcher.sheetspec.SheetSpec`): new sheets are
+    One atomic write of all of tocsin's sheets (:class:`~watcher.xlsx.spec.SheetSpec`): new sheets are
     appended after the user's, tocsin's sheets of the same name are replaced in place, tocsin's sheets
     named in ``remove`` are deleted. Raises :class:`~sheetfns.errors.OwnershipError` for a user's sheet
     of a requested name (naming it) and :class:`~sheetfns.errors.ConcurrentEditError` when the file no
     longer holds the bytes ``expect`` describes (someone saved while tocsin computed: nothing is
     written; try again later). Returns a :class:`WriteResult`.
 ``validate(path)``
-    Structural problems of a package as messages (see :mod:`watcher.pkgcheck`).
+    Structural problems of a package as messages (see :mod:`watcher.xlsx.validate`).
 
-The work is split: :mod:`watcher.pkgsource` reads a package, :mod:`watcher.pkgplan` plans and emits a
-write, :mod:`watcher.sheetxml` and :mod:`watcher.charts` produce tocsin's parts, :mod:`watcher.cellstyles`
-its cell formats, :mod:`watcher.zipio` and :mod:`watcher.opc` the zip and packaging layers; this module
-holds the public API and the atomic replace.
+The work is split: :mod:`watcher.xlsx.source` reads a package, :mod:`watcher.xlsx.plan` plans and emits a
+write, :mod:`watcher.xlsx.worksheet` and :mod:`watcher.xlsx.chart` produce tocsin's parts,
+:mod:`watcher.xlsx.styles` its cell formats, :mod:`watcher.xlsx.archive` and :mod:`watcher.xlsx.opc` the zip
+and packaging layers; this module holds the public API and the atomic replace.
 
 Ownership and state
 -------------------
@@ -67,16 +67,16 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from sheetfns.errors import ConcurrentEditError, InputError, PackageError
-from watcher.pkgplan import check_request, make_plan
-from watcher.pkgplan import emit as _emit
-from watcher.pkgsource import MARKER_PREFIX, SHEET_MARK, SheetInfo, Source
-from watcher.sheetspec import SheetSpec
-from watcher.zipio import MAX_TOTAL
+from watcher.xlsx.archive import MAX_TOTAL
+from watcher.xlsx.plan import check_request, make_plan
+from watcher.xlsx.plan import emit as _emit
+from watcher.xlsx.source import MARKER_PREFIX, SHEET_MARK, SheetInfo, Source
+from watcher.xlsx.spec import SheetSpec
 
 __all__ = ["Fingerprint", "Package", "SheetInfo", "WriteResult", "MARKER_PREFIX", "SHEET_MARK",
            "fingerprint_of", "validate", "write"]
 
-_TEMP_PREFIX = ".tocsin-"  # the watcher ignores these (watcher.debounce.TOCSIN_TEMP_PREFIX)
+_TEMP_PREFIX = ".tocsin-"  # the watcher ignores these (watcher.watch.debounce.TOCSIN_TEMP_PREFIX)
 _TEMP_SUFFIX = ".tmp"
 _STALE_TEMP_SECONDS = 3600
 
@@ -173,8 +173,8 @@ class Package:
 
 
 def validate(path: str | os.PathLike) -> list[str]:
-    """Structural problems of the package at ``path`` (empty when none); see :mod:`watcher.pkgcheck`."""
-    from watcher.pkgcheck import check_package
+    """Structural problems of the package at ``path`` (empty when none); see :mod:`watcher.xlsx.validate`."""
+    from watcher.xlsx.validate import check_package
 
     return check_package(path)
 

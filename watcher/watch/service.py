@@ -5,10 +5,10 @@ Three roles, three threads of control:
 * the **handler** (``_Forwarder``), called on watchdog's observer thread, only forwards the paths of
   created, modified, moved (both ends), closed-after-write and deleted files -- spreadsheet programs save
   by writing a temporary file and renaming it over the workbook, so all of these count alike;
-* the **debouncer** (``watcher.debounce.Debouncer``) keeps one deadline per workbook, restarts it on every
-  event, and hands a workbook on once it has been quiet for ``--quiet`` seconds, its size and mtime are
+* the **debouncer** (``watcher.watch.debounce.Debouncer``) keeps one deadline per workbook, restarts it on
+  every event, and hands a workbook on once it has been quiet for ``--quiet`` seconds, its size and mtime are
   stable, no owner file says a person has it open, and it opens as a complete zip package;
-* the **refresh worker** (``watcher.refresh_worker.RefreshWorker``) refreshes one workbook at a time.
+* the **refresh worker** (``watcher.watch.worker.RefreshWorker``) refreshes one workbook at a time.
 
 No loops: tocsin's own write changes the file, so it comes back through the debouncer, and the refresh
 answers "unchanged" (its recorded fingerprint matches) without writing. A workbook that changed while
@@ -29,9 +29,9 @@ from collections.abc import Callable, Iterator, Sequence
 from pathlib import Path
 from typing import Any
 
-from watcher.debounce import Debouncer, FileProbe, is_workbook_name, workbook_of_owner_file
-from watcher.refresh_worker import Outcome, RefreshWorker
-from watcher.watchlog import WatchLog
+from watcher.watch.debounce import Debouncer, FileProbe, is_workbook_name, workbook_of_owner_file
+from watcher.watch.log import WatchLog
+from watcher.watch.worker import Outcome, RefreshWorker
 
 __all__ = ["Watcher", "add_watch_arguments", "main", "main_watch", "run_watch"]
 
@@ -67,7 +67,7 @@ def _event_filter() -> list[type]:
 
 
 def _load_refresh() -> Callable[..., Any]:
-    from watcher.refresh import refresh_workbook  # lazy: pulls in the computation stack
+    from watcher.refresh.workbook import refresh_workbook  # lazy: pulls in the computation stack
     return refresh_workbook
 
 
@@ -79,7 +79,8 @@ class Watcher:
     paths : sequence of path-like
         Folders (watched recursively) and/or ``.xlsx``/``.xlsm`` workbooks.
     refresh : callable, optional
-        ``refresh(path, *, progress=None) -> RefreshReport``; default ``watcher.refresh.refresh_workbook``.
+        ``refresh(path, *, progress=None) -> RefreshReport``; default
+        ``watcher.refresh.workbook.refresh_workbook``.
     quiet : float
         Seconds a workbook must be free of events before it is refreshed.
     poll : float, optional
@@ -396,7 +397,7 @@ def main_watch(
 
 
 def main(argv: Sequence[str] | None = None) -> int:
-    """``python -m watcher.watch PATH... [options]``: the same as ``tocsin watch``."""
+    """``python -m watcher.watch.service PATH... [options]``: the same as ``tocsin watch``."""
     parser = add_watch_arguments(argparse.ArgumentParser(
         prog="tocsin watch",
         description="Keep tocsin's forecast sheets current: refresh each workbook whenever it is saved."))

@@ -1,6 +1,6 @@
 """A workbook package read into memory with its registry parts parsed: content types, relationships,
 the workbook part, its sheets, tocsin's record (ownership and state, in a custom document property) and
-tocsin's marks on its sheets. Used by :mod:`watcher.package` (reading) and :mod:`watcher.pkgplan`
+tocsin's marks on its sheets. Used by :mod:`watcher.xlsx.package` (reading) and :mod:`watcher.xlsx.plan`
 (planning a write)."""
 from __future__ import annotations
 
@@ -11,8 +11,8 @@ from dataclasses import dataclass
 from lxml import etree
 
 from sheetfns.errors import PackageError
-from watcher.opc import CT, NS, REL, ContentTypes, Rels, local_name, parse_xml, rels_part_of
-from watcher.zipio import ZipSource
+from watcher.xlsx.archive import ZipSource
+from watcher.xlsx.opc import CT, NS, REL, ContentTypes, Rels, local_name, parse_xml, rels_part_of
 
 __all__ = ["MARKER_FORMAT", "MARKER_PREFIX", "SHEET_MARK", "SheetInfo", "Source"]
 

@@ -11,7 +11,7 @@ from typing import Any, NamedTuple
 
 import numpy as np
 
-from sheetfns._scorebase import Quotient, paired_prob
+from sheetfns._scoring.base import Quotient, paired_prob
 from sheetfns.checks import _show, as_int
 from sheetfns.errors import InputError
 

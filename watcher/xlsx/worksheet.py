@@ -31,7 +31,7 @@ from collections.abc import Iterator, Mapping
 
 import numpy as np
 
-from watcher.sheetspec import MAX_TEXT, Cells, Column, SheetSpec, Table, col_letter
+from watcher.xlsx.spec import MAX_TEXT, Cells, Column, SheetSpec, Table, col_letter
 
 __all__ = ["CHUNK_ROWS", "date_serials", "escape_text", "style_keys", "worksheet_chunks"]
 

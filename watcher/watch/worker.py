@@ -92,7 +92,7 @@ class RefreshWorker:
     Parameters
     ----------
     refresh : callable
-        ``refresh(path, *, progress=None) -> RefreshReport`` (``watcher.refresh.refresh_workbook``).
+        ``refresh(path, *, progress=None) -> RefreshReport`` (``watcher.refresh.workbook.refresh_workbook``).
     on_outcome : callable(Outcome)
         Called on the worker thread after every attempt (log it; resubmit a conflict).
     workers : int

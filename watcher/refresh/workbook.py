@@ -114,8 +114,7 @@ def compute_job(job: Any, data: Any) -> JobOutcome:
     from sheetfns import profile
     from sheetfns.events import flag
     from sheetfns.scorecard import evaluate
-    from watcher import jobs as jobs_mod
-
+    from watcher.refresh import jobs as jobs_mod
     job = jobs_mod.resolve(job, data)
     raw = data.raw[job.value_column] if job.text_columns else data.columns[job.value_column]
     events = flag(raw, job.criterion, job.min_run)
@@ -171,8 +170,7 @@ def _event_text(job: Any, data: Any) -> str:
 # ----------------------------------------------------------------------------------------- the sheets
 
 def _sheets_for(outcome: JobOutcome, refreshed_at: dt.datetime) -> list[Any]:
-    from watcher import layout
-
+    from watcher.refresh import layout
     job, data = outcome.job, outcome.data
     ctx = layout.SheetContext(
         job=outcome.name, sheet=outcome.sheet, profile_sheet=outcome.profile_sheet,
@@ -245,8 +243,8 @@ def evaluate_book(path: Path, progress: Progress = None, *, known: dict[str, str
     fingerprint matches is not computed again (its outcome has ``unchanged`` set). ``taken`` holds
     the names of the user's sheets: a job whose output sheet is one of them fails without a sheet
     (``blocked``), and the other jobs go on."""
-    from watcher import jobs as jobs_mod
-    from watcher.reader import Book
+    from watcher.refresh import jobs as jobs_mod
+    from watcher.refresh.reader import Book
 
     known = known or {}
     taken = {t.casefold() for t in taken}
@@ -313,9 +311,9 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
     changed while computing; nothing written), "busy" (open in a spreadsheet program), "nojobs"
     (the workbook has no job table: nothing to do, and an error for a workbook named on purpose).
     """
-    from watcher import jobs as jobs_mod
-    from watcher import package
-    from watcher.debounce import owner_file
+    from watcher.refresh import jobs as jobs_mod
+    from watcher.watch.debounce import owner_file
+    from watcher.xlsx import package
 
     path = Path(path)
     start = time.monotonic()
@@ -406,8 +404,7 @@ class CheckResult:
 
 def check_workbook(path: Path | str, *, progress: Progress = None) -> CheckResult:
     """Validate the job table and compute every job's scorecard; write nothing."""
-    from watcher import package
-
+    from watcher.xlsx import package
     path = Path(path)
     try:
         problems = tuple(package.validate(path))
@@ -427,10 +424,10 @@ def init_workbook(path: Path | str, *, sheet: str, value: str, event: str, date:
     """Add a job table with one job to the workbook; return the job's name. Refuses when the
     workbook already has a sheet named 'tocsin'."""
     from sheetfns.events import parse_criterion
-    from watcher import jobs as jobs_mod
-    from watcher import package
-    from watcher.reader import Book
-    from watcher.sheetspec import Cells, SheetSpec
+    from watcher.refresh import jobs as jobs_mod
+    from watcher.refresh.reader import Book
+    from watcher.xlsx import package
+    from watcher.xlsx.spec import Cells, SheetSpec
 
     path = Path(path)
     parse_criterion(event)

@@ -61,7 +61,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--json", action="store_true", help="print a machine-readable report")
     p.add_argument("--force", action="store_true", help="rewrite even when the inputs are unchanged")
 
-    from watcher import watch as _watch  # light: watchdog is imported when the watcher starts
+    from watcher.watch import service as _watch  # light: watchdog is imported when the watcher starts
 
     p = sub.add_parser("watch", help="keep forecast sheets current whenever a workbook is saved",
                        description="Watch folders (recursively) or single workbooks and refresh each "
@@ -89,8 +89,7 @@ def _stderr_progress():
 
 
 def _cmd_init(args: argparse.Namespace) -> int:
-    from watcher import refresh
-
+    from watcher.refresh import workbook as refresh
     job = refresh.init_workbook(args.book, sheet=args.sheet, value=args.value, date=args.date,
                                 event=args.event, job=args.job)
     print(f"{args.book}: added sheet 'tocsin' with job '{job}'. Run: tocsin refresh {args.book}")
@@ -98,8 +97,8 @@ def _cmd_init(args: argparse.Namespace) -> int:
 
 
 def _cmd_check(args: argparse.Namespace) -> int:
-    from watcher import refresh, report
-
+    from watcher.cli import tables as report
+    from watcher.refresh import workbook as refresh
     result = refresh.check_workbook(args.book, progress=_stderr_progress())
     if sys.stderr.isatty():
         sys.stderr.write("\r\x1b[K")
@@ -110,8 +109,8 @@ def _cmd_check(args: argparse.Namespace) -> int:
 
 
 def _cmd_refresh(args: argparse.Namespace) -> int:
-    from watcher import refresh, report
-
+    from watcher.cli import tables as report
+    from watcher.refresh import workbook as refresh
     reports = []
     for book in args.books:
         rep = refresh.refresh_workbook(book, force=args.force, progress=_stderr_progress())
@@ -128,14 +127,12 @@ def _cmd_refresh(args: argparse.Namespace) -> int:
 
 
 def _cmd_watch(args: argparse.Namespace) -> int:
-    from watcher import watch
-
+    from watcher.watch import service as watch
     return watch.run_watch(args)
 
 
 def _cmd_demo(args: argparse.Namespace) -> int:
-    from watcher import demo
-
+    from watcher.cli import demo
     return demo.run_demo(args.dir, progress=_stderr_progress())
 
 

@@ -1,5 +1,5 @@
 """What a sheet tocsin writes contains, without any XML: small immutable values the package writer turns
-into a worksheet part (:mod:`watcher.sheetxml`) and chart parts (:mod:`watcher.charts`).
+into a worksheet part (:mod:`watcher.xlsx.worksheet`) and chart parts (:mod:`watcher.xlsx.chart`).
 
 A :class:`SheetSpec` is a name plus *blocks*, rectangles of cells placed at a 0-based ``(row, col)``:
 

@@ -2,7 +2,7 @@
 
 Point the xlwings add-in's "UDF Modules" setting at ``sheetfns.udf`` and import the functions; then
 ``=EVENT_FLAG(B2:B2930, ">=1150")`` spills a 0/1 column next to the passengers. Each function is a
-thin wrapper, in four steps: coerce the ranges (``sheetfns._coerce``), call the core module, map NaN to
+thin wrapper, in four steps: coerce the ranges (``sheetfns.udf.coerce``), call the core module, map NaN to
 a blank cell, return a column of the input's height or a small table with a header row. Bad input
 never raises into the spreadsheet: the cell shows ``#tocsin: `` and what to fix.
 
@@ -30,10 +30,10 @@ except ImportError as _exc:  # pragma: no cover - exercised in a subprocess test
         "with: pip install 'tocsin[excel]'. The rest of tocsin (sheetfns.events, ..., the watcher) "
         "works without it.") from _exc
 
-from sheetfns import _coerce as c
 from sheetfns import benchmarks, events, logistic, partition, profile, scores
 from sheetfns.checks import same_length
 from sheetfns.errors import InputError
+from sheetfns.udf import coerce as c
 
 Cells = Any   # a range: a list of rows, a flat list (a column) or a single value
 Value = Any   # a single cell or a literal typed into the formula; None when blank or omitted

@@ -1,4 +1,4 @@
-"""A structural validator for workbook packages (``watcher.package.validate`` and ``tocsin check``).
+"""A structural validator for workbook packages (``watcher.xlsx.package.validate`` and ``tocsin check``).
 
 Spreadsheet programs and reading libraries are lenient, so they cannot be the only judges of what the
 writer produces. :func:`check_package` lists, as plain messages, what breaks the rules of the format
@@ -31,9 +31,9 @@ from pathlib import Path
 from lxml import etree
 
 from sheetfns.errors import InputError, PackageError
-from watcher.opc import CT, NS, REL, ContentTypes, Rels, parse_xml
-from watcher.sheetspec import check_sheet_name
-from watcher.zipio import ZipSource
+from watcher.xlsx.archive import ZipSource
+from watcher.xlsx.opc import CT, NS, REL, ContentTypes, Rels, parse_xml
+from watcher.xlsx.spec import check_sheet_name
 
 __all__ = ["check_package", "WORKSHEET_ORDER"]
 

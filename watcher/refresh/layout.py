@@ -32,7 +32,7 @@ from typing import Any
 import numpy as np
 
 from sheetfns.scorecard import SCORE_ROWS, Evaluation, best_mask
-from watcher.sheetspec import Cells, ChartSpec, Column, Range, Ref, Series, SheetSpec, Table
+from watcher.xlsx.spec import Cells, ChartSpec, Column, Range, Ref, Series, SheetSpec, Table
 
 CAUTION = ("Caution: these are statistical forecasts from past data, not a substitute for official "
            "warnings, clinical or engineering judgement, or the procedures that apply where you work.")

@@ -9,8 +9,8 @@ from __future__ import annotations
 import math
 from typing import Literal, NamedTuple
 
-from sheetfns._categorical import CATEGORICAL_KEYS
-from sheetfns._probabilistic import PROBABILISTIC_KEYS
+from sheetfns._scoring.categorical import CATEGORICAL_KEYS
+from sheetfns._scoring.probabilistic import PROBABILISTIC_KEYS
 
 Orientation = Literal["higher", "lower", "one"] | None
 

@@ -1,7 +1,7 @@
 """Planning one write of tocsin's sheets: which sheets are added, replaced and removed, which registry
 parts change and how (workbook, its relationships, content types, styles, calculation chain, tocsin's
 record and marks), which old parts go with a rewritten sheet, and finally emitting the new package with
-every other member copied as its compressed bytes. See :mod:`watcher.package` for the rules."""
+every other member copied as its compressed bytes. See :mod:`watcher.xlsx.package` for the rules."""
 from __future__ import annotations
 
 import json
@@ -12,10 +12,10 @@ from typing import Any
 from lxml import etree
 
 from sheetfns.errors import InputError, OwnershipError, PackageError
-from watcher import charts as _charts
-from watcher import sheetxml as _sheetxml
-from watcher.cellstyles import ensure_styles, minimal_styles
-from watcher.opc import (
+from watcher.xlsx import chart as _charts
+from watcher.xlsx import worksheet as _sheetxml
+from watcher.xlsx.archive import ZipWriter
+from watcher.xlsx.opc import (
     CT,
     NS,
     REL,
@@ -26,9 +26,9 @@ from watcher.opc import (
     rels_part_of,
     serialize,
 )
-from watcher.pkgsource import MARKER_FORMAT, MARKER_PREFIX, SHEET_MARK, Source, _local, _q
-from watcher.sheetspec import SheetSpec, check_sheet_name
-from watcher.zipio import ZipWriter
+from watcher.xlsx.source import MARKER_FORMAT, MARKER_PREFIX, SHEET_MARK, Source, _local, _q
+from watcher.xlsx.spec import SheetSpec, check_sheet_name
+from watcher.xlsx.styles import ensure_styles, minimal_styles
 
 __all__ = ["Plan", "check_request", "emit", "make_plan"]
 

@@ -19,8 +19,8 @@ from collections import Counter
 
 import numpy as np
 
-from sheetfns import _irls
-from sheetfns._design import Design
+from sheetfns._logit import irls as _irls
+from sheetfns._logit.design import Design
 from sheetfns.errors import InputError
 from sheetfns.logistic import (
     _TOL,

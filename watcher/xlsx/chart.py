@@ -1,7 +1,7 @@
 """Native charts: DrawingML chart parts (ECMA-376 Part 1, §21.2) and the drawing part that places them
 on a worksheet (§20.5, SpreadsheetML drawing).
 
-:func:`chart_xml` writes one ``c:chartSpace`` for a :class:`~watcher.sheetspec.ChartSpec`: a line chart
+:func:`chart_xml` writes one ``c:chartSpace`` for a :class:`~watcher.xlsx.spec.ChartSpec`: a line chart
 (series over category labels or dates) or a scatter chart with straight lines (x/y pairs: reliability
 diagrams, ROC curves). Each series refers to the cells of its sheet (``'Sheet'!$B$2:$B$9``) *and*
 carries a cache of the values, so the chart shows even in a viewer that does not recalculate. Series
@@ -18,8 +18,8 @@ from collections.abc import Callable, Sequence
 
 import numpy as np
 
-from watcher.sheetspec import ChartSpec, Ref, Series, SheetSpec
-from watcher.sheetxml import _num_text, date_serials, escape_text
+from watcher.xlsx.spec import ChartSpec, Ref, Series, SheetSpec
+from watcher.xlsx.worksheet import _num_text, date_serials, escape_text
 
 __all__ = ["chart_xml", "drawing_xml", "sheet_ref"]
 
@@ -43,7 +43,7 @@ def _esc_attr(text: str) -> str:
 
 def _values(spec: SheetSpec, ref: Ref) -> list:
     """The values of ``ref`` as the spec holds them (a column slice when a table column holds it)."""
-    from watcher.sheetspec import Table
+    from watcher.xlsx.spec import Table
 
     for b in spec.blocks:
         if (isinstance(b, Table) and b.col <= ref.col < b.col + b.width and b.n_rows

@@ -1,0 +1,1 @@
+"""Internals of the logistic model: the design matrix, the Newton solver and the refit schemes."""

@@ -1,0 +1,4 @@
+"""The ``tocsin`` command (``watcher.cli:main`` is the console entry point)."""
+from watcher.cli.command import main
+
+__all__ = ["main"]
