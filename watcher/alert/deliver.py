@@ -181,7 +181,7 @@ class Dispatcher:
                                        "sent and the mail was not sent")
                     smtp.starttls(context=mail.tls())
                     smtp.ehlo()
-                    smtp.login(mail.user, mail.password or "")
+                    _login(smtp, mail.user, mail.password or "")
                 refused = smtp.send_message(msg, from_addr=mail.sender, to_addrs=list(mail.recipients))
         except smtplib.SMTPAuthenticationError as exc:
             return False, f"{head}: the server refused the login ({_reply(exc.smtp_code, exc.smtp_error)})"
@@ -192,6 +192,8 @@ class Dispatcher:
         except ssl.SSLError as exc:
             return False, f"{head}: TLS failed ({exc.reason or exc})"
         except smtplib.SMTPException as exc:  # (an OSError too: before the OSError clause)
+            if isinstance(exc.__context__, TimeoutError):  # smtplib re-raises a timeout as "disconnected"
+                return False, f"{head}: no answer within {self.timeout:g} s"
             return False, f"{head}: {exc or type(exc).__name__}"
         except TimeoutError:
             return False, f"{head}: no answer within {self.timeout:g} s"
@@ -213,6 +215,21 @@ class Dispatcher:
         for secret in sorted(secrets, key=len, reverse=True):
             text = text.replace(secret, "***")
         return text
+
+
+def _login(smtp: smtplib.SMTP, user: str, password: str) -> None:
+    """Log in. smtplib sends credentials as ASCII only; a user name or password beyond ASCII goes as
+    AUTH PLAIN in UTF-8 (RFC 4616, section 2), which is the one mechanism that defines it."""
+    if (user + password).isascii():
+        smtp.login(user, password)
+        return
+    if "PLAIN" not in smtp.esmtp_features.get("auth", "").upper().split():
+        raise smtplib.SMTPException("the server does not offer AUTH PLAIN, the only login that carries a "
+                                    "user name or password with non-ASCII characters")
+    token = base64.b64encode(f"\0{user}\0{password}".encode()).decode("ascii")
+    code, answer = smtp.docmd("AUTH", f"PLAIN {token}")
+    if code not in (235, 503):  # 503: already authenticated
+        raise smtplib.SMTPAuthenticationError(code, answer)
 
 
 def _kill_group(proc: subprocess.Popen) -> None:

@@ -141,4 +141,11 @@ def _period(period: str | int) -> str:
 
 
 def _percent(p: float) -> str:
-    return f"{100 * p:.1f} %"
+    """71.3 %, 50 %; never a rounded 0 % or 100 % for a chance that is neither."""
+    value = 100 * p
+    text = f"{value:.1f}".removesuffix(".0")
+    if text == "0" and value > 0:
+        return "under 0.1 %"
+    if text == "100" and value < 100:
+        return "over 99.9 %"
+    return f"{text} %"
