@@ -7,6 +7,7 @@ Outside reference: the POSIX shell's quoting rules (IEEE Std 1003.1, Shell Comma
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import json
 import os
 import shlex
@@ -176,3 +177,15 @@ def test_a_command_that_ignores_stdin_still_succeeds(tmp_path):
 def test_the_program_is_kept_by_its_full_path():
     disp = dispatcher("sh -c 'exit 0'")
     assert os.path.isabs(disp.command[0]) and disp.command[1:] == ("-c", "exit 0")
+
+
+def test_send_lists_the_failures_and_never_raises(recorder, tmp_path):
+    path, inbox, _ = recorder
+    good = dispatcher(shlex.quote(str(path)))
+    alert = ring(None, 1, good).alert
+    assert good.send(alert) == [] and len(lines(inbox)) == 2
+    broken = dataclasses.replace(alert, probability=float("nan"))  # cannot be JSON (RFC 8259: no NaN)
+    (message,) = good.send(broken)
+    assert message.startswith("notify: internal error (ValueError: Out of range float values")
+    failing = dispatcher(shlex.quote(str(script(tmp_path / "no.py", "sys.exit(2)"))))
+    assert failing.send(alert) == ["alert command 'no.py' (raised 'ferry-capacity') exited with code 2"]

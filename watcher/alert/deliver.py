@@ -22,7 +22,6 @@ from __future__ import annotations
 
 import base64
 import os
-import shlex
 import signal
 import smtplib
 import ssl
@@ -78,7 +77,8 @@ class Dispatcher:
     Parameters
     ----------
     command : sequence of str, optional
-        The ``--notify`` argument list, already split (:meth:`split_command`).
+        The ``--notify`` argument list, split once with shell rules by :mod:`watcher.alert.options`; it
+        is run as it is, without a shell.
     mail : MailSettings, optional
         Where mail goes.
     timeout : float
@@ -94,12 +94,6 @@ class Dispatcher:
     def __repr__(self) -> str:
         return f"Dispatcher(command={self.command!r}, mail={self.mail!r}, timeout={self.timeout!r})"
 
-    @staticmethod
-    def split_command(text: str) -> list[str]:
-        """``--notify`` text as an argument list, split with shell rules (quotes, backslashes); no shell
-        ever sees it, so ``;``, ``|``, ``$(...)`` and backquotes are plain characters of the arguments."""
-        return shlex.split(text)
-
     @property
     def channels(self) -> tuple[str, ...]:
         """The configured channels, in :data:`CHANNELS` order (empty: alerts are only recorded)."""
@@ -107,10 +101,12 @@ class Dispatcher:
         return tuple(c for c in CHANNELS if on[c])
 
     def describe(self) -> str:
-        """One line for the watcher's start message (no credentials)."""
+        """One line for the watcher's start message (no credentials, no command arguments)."""
         parts = []
-        if self.command:
-            parts.append(f"command {shlex.join(self.command)}")
+        if self.command:  # the program only: an argument may hold a token the log should not keep
+            more = len(self.command) - 1
+            parts.append(f"command {self.command[0]}" + (f" (and {more} argument{'s' * (more > 1)})"
+                                                         if more else ""))
         if self.mail:
             login = " (STARTTLS, login)" if self.mail.user else ""
             parts.append(f"mail to {', '.join(self.mail.recipients)} via {self.mail.where}{login}")

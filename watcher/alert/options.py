@@ -86,7 +86,10 @@ def dispatcher_from_args(args: argparse.Namespace, *, environ: Mapping[str, str]
                                        f"{option} {value!r} alone")
         return Dispatcher(command=command, timeout=limit)
     texts = [mail_to] if isinstance(mail_to, str) else list(mail_to)
-    recipients = tuple(a for text in texts for a in parse_addresses(text, option="--mail-to"))
+    recipients: list[str] = []
+    for address in (a for text in texts for a in parse_addresses(text, option="--mail-to")):
+        if address.lower() not in (r.lower() for r in recipients):
+            recipients.append(address)
     host, port = parse_smtp(smtp) if smtp is not None else ("localhost", SMTP_PORT)
     user, password = _login(env)
     if mail_from is not None:
@@ -98,19 +101,19 @@ def dispatcher_from_args(args: argparse.Namespace, *, environ: Mapping[str, str]
         sender_address = user
     else:
         sender_address = _default_sender()
-    mail = MailSettings(recipients=recipients, sender=sender_address, host=host, port=port, user=user,
+    mail = MailSettings(recipients=tuple(recipients), sender=sender_address, host=host, port=port, user=user,
                         password=password)
     return Dispatcher(command=command, mail=mail, timeout=limit)
 
 
 def parse_addresses(text: Any, *, option: str = "--mail-to") -> tuple[str, ...]:
-    """``ADDR[,ADDR]`` as a tuple of addresses (simple syntax, no line breaks, no duplicates)."""
+    """``ADDR[,ADDR]`` as a tuple of addresses (simple syntax, no line breaks; a repeat is dropped)."""
     if not isinstance(text, str) or not text.strip():
         raise AlertOptionError(f"`{option}` must be one or more addresses like ops@example.org, separated "
                                f"by commas; got {text!r}")
     out: list[str] = []
     for i, item in enumerate(text.split(","), start=1):
-        address = item.strip()
+        address = item.strip(" \t")  # blanks around commas; a line break is an error below
         if not _ADDRESS.fullmatch(address) or len(address) > 254:
             where = f" (item {i} of {text!r})" if "," in text else ""
             raise AlertOptionError(f"`{option}` must be addresses like ops@example.org, separated by commas; "
