@@ -225,3 +225,30 @@ def test_each_channel_is_told_every_change_once_and_nothing_twice(sequence):
                 told[channel] = state
         if record is not None:
             assert {c: s for c, s in record["announced"].items()} == told
+
+
+# ------------------------------------------------------------------------ ring_job without channels
+
+def quiet_ring(record, fut, *, setting="best", best="logistic"):
+    from watcher.alert.deliver import Dispatcher
+    from watcher.alert.ring import ring_job
+    return ring_job(stored(record), workbook="w.xlsx", job="j", setting=setting, best_method=best,
+                    future=fut, cutoff=0.5, verdict="", dispatcher=Dispatcher())
+
+
+def test_ring_job_without_channels_records_the_state_and_says_when_to_write():
+    first = quiet_ring(None, future(1, 0.9))
+    assert first.alert is None and first.deliveries == () and first.changed
+    assert first.record == {"state": EVENT, "method": "logistic", "period": "2026-12-03", "announced": {}}
+    assert not quiet_ring(first.record, future(1, 0.8)).changed  # nothing new: no write
+    assert quiet_ring(first.record, future(0, 0.1)).changed
+    off = quiet_ring(first.record, future(1, 0.9), setting="off")
+    assert off.record is None and off.changed and not quiet_ring(None, None, setting="off").changed
+
+
+def test_ring_job_notes_a_named_method_without_a_forecast():
+    rung = quiet_ring(None, future(1, 0.9), setting="markov")
+    assert rung.note == ("alert: the markov method has no forecast for the next period, so this job "
+                         "cannot ring") and rung.record is None
+    assert quiet_ring(None, future(1, 0.9), best=None).note == ""  # best without a best method: silent
+    assert quiet_ring(None, None).note == ""  # a failed job says so elsewhere
