@@ -1,6 +1,6 @@
 """The watcher as a process: SIGTERM and Ctrl-C stop it within a few seconds with exit code 0.
 
-A subprocess runs ``watcher.watch.service.main_watch`` on a temporary folder with the contract-keeping fake
+A subprocess runs ``watcher.cli.watch.main_watch`` on a temporary folder with the contract-keeping fake
 refresh of ``test_watch`` (its computing time set per test), so the signal can land while it is idle,
 while a refresh is computing for a long time (abandoned cleanly: nothing written, no temporary left) or
 just before the write of a short refresh (finished within the grace period).
@@ -29,7 +29,7 @@ import sys
 from pathlib import Path
 sys.path.insert(0, sys.argv[1])
 from test_watch import FakeRefresh
-from watcher.watch.service import main_watch
+from watcher.cli.watch import main_watch
 fake = FakeRefresh(compute_s=float(sys.argv[4]), started_dir=Path(sys.argv[3]))
 sys.exit(main_watch([sys.argv[2]], quiet=0.2, initial=False, log=sys.argv[5], refresh=fake))
 """
@@ -129,13 +129,13 @@ def test_short_refresh_in_flight_finishes_its_write(proc_factory):
 
 def test_bad_path_is_an_error_message_not_a_traceback(tmp_path):
     env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(ROOT), os.environ.get("PYTHONPATH", "")]))
-    run = subprocess.run([sys.executable, "-m", "watcher.watch.service", str(tmp_path / "nowhere"),
+    run = subprocess.run([sys.executable, "-m", "watcher.cli", "watch", str(tmp_path / "nowhere"),
                           "--quiet", "0.5"],
                          env=env, capture_output=True, text=True, timeout=60)
     assert run.returncode == 2
     assert run.stderr.startswith("error: `PATH` must be an existing folder or workbook;")
     assert "Traceback" not in run.stderr
-    bad = subprocess.run([sys.executable, "-m", "watcher.watch.service", str(tmp_path), "--poll", "soon"],
+    bad = subprocess.run([sys.executable, "-m", "watcher.cli", "watch", str(tmp_path), "--poll", "soon"],
                          env=env, capture_output=True, text=True, timeout=60)
     assert bad.returncode == 2 and "`--poll` must be a number of seconds > 0; got 'soon'" in bad.stderr
 

@@ -30,7 +30,7 @@ def refresh_errors(rep: Any) -> list[str]:
     """The errors of a refresh, one line each, for stderr: the workbook's, then each failed job's."""
     name = rep.path.name
     out = [f"{name}: {rep.message}"] if rep.status in ("failed", "nojobs") else []
-    if rep.status in ("busy", "conflict"):  # not refreshed this time; a later run will
+    if rep.status in ("busy", "conflict", "readonly"):  # not refreshed this time
         out.append(f"{name}: not refreshed: {rep.message}")
     out += [f"{name}: job {j.name!r}: {j.message}" for j in rep.jobs if j.status == "failed"]
     return out
