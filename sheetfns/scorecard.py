@@ -245,7 +245,8 @@ def run_methods(events: np.ndarray, *, train_size: int, settings: Settings, date
     methods.append(Method("majority_roll", METHOD_LABELS["majority_roll"], vote_r, share_r))
     notes: list[str] = []
     coefficients = None
-    inputs = {"the value column": values, **(predictors or {}), **(known_ahead or {})}
+    inputs = {"the value series": values, **{f"predictor {k!r}": v for k, v in (predictors or {}).items()},
+              **{f"known-ahead input {k!r}": v for k, v in (known_ahead or {}).items()}}
     problem = model_scale_problem(inputs)
     if problem is not None:  # never hand overflowing data to the linear algebra
         notes.append(f"logistic model not fitted: {problem}")

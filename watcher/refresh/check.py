@@ -40,7 +40,7 @@ def check_workbook(path: Path | str, *, progress: Progress = None) -> CheckResul
     """Validate the job table and compute every job's scorecard; write nothing."""
     path = Path(path)
     try:
-        problems = tuple(package.validate(path))
+        problems = _package_problems(path)
         pkg = package.Package.open(path)
         owned = {s.casefold() for s in pkg.owned}
         users = [s for s in pkg.sheet_names if s.casefold() not in owned]
@@ -50,3 +50,14 @@ def check_workbook(path: Path | str, *, progress: Progress = None) -> CheckResul
     now = dt.datetime.now().replace(microsecond=0)
     laid = tuple(lay_out(o, now)[0] for o in outcomes)   # the sheets are built and checked, not written
     return CheckResult(path, table, laid, problems)
+
+
+def _package_problems(path: Path) -> tuple[str, ...]:
+    """The structural problems of the package; a part the validator cannot even read (a damaged
+    member: the parsers' own exceptions) is one problem, and the jobs are still checked."""
+    try:
+        return tuple(package.validate(path))
+    except (ValueError, OSError):
+        raise
+    except Exception as exc:
+        return (f"a part of the package cannot be read ({type(exc).__name__}: {exc})",)

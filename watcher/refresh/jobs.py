@@ -76,6 +76,7 @@ from watcher.refresh.cells import show
 from watcher.refresh.errors import JobError, ReaderError
 from watcher.refresh.reader import Book
 from watcher.refresh.settings import SETTINGS, Row, parse_enabled, parse_header, parse_row, row_label
+from watcher.xlsx import package
 from watcher.xlsx.spec import col_letter
 
 __all__ = ["TABLE_SHEET", "SETTINGS", "TABLE_NOTE", "Job", "RowError", "DisabledJob",
@@ -201,9 +202,9 @@ def read_job_table(book: Any, *, sheet: str = TABLE_SHEET, user_sheets: Collecti
     sheet : str, default 'tocsin'
         The name of the job table's sheet (matched case-insensitively).
     user_sheets : collection of str, optional
-        The sheets that are the user's (not tocsin's). When one job's output sheet is another job's
-        data sheet, the writing job is at fault if that sheet is the user's, else the reading job
-        (it reads tocsin's output). Unknown (None): the reading job.
+        The sheets that are the user's (not tocsin's); default: as the package records them. When one
+        job's output sheet is another job's data sheet, the writing job is at fault if that sheet is the
+        user's, else the reading job (it reads tocsin's output).
 
     Returns
     -------
@@ -287,6 +288,8 @@ def read_job_table(book: Any, *, sheet: str = TABLE_SHEET, user_sheets: Collecti
             errors += row_errors
         elif job is not None:
             jobs.append(job)
+    if user_sheets is None:
+        user_sheets = _user_sheets(book)
     keep, clashes = _sheet_roles(jobs, table, user_sheets)
     errors += clashes
     if len(rows) == 1 or (len(rows) > 1 and all(v is None for v in rows[1])):
@@ -295,6 +298,16 @@ def read_job_table(book: Any, *, sheet: str = TABLE_SHEET, user_sheets: Collecti
     return JobTable(book=book.name, sheet=table, jobs=tuple(keep),
                     errors=tuple(sorted(errors, key=lambda e: e.row)), disabled=tuple(disabled),
                     header_row=top)
+
+
+def _user_sheets(book: Any) -> Collection[str] | None:
+    """The user's sheets of ``book`` by tocsin's record in the package (None when it cannot be read)."""
+    try:
+        pkg = package.Package.open(book.path)
+    except (ValueError, OSError):
+        return None
+    owned = {s.casefold() for s in pkg.owned}
+    return [s for s in pkg.sheet_names if s.casefold() not in owned]
 
 
 def _sheet_roles(jobs: list[Job], table: str, user_sheets: Collection[str] | None
