@@ -17,7 +17,7 @@ from collections.abc import Sequence
 from pathlib import Path
 
 from watcher.cli.watch import add_watch_arguments, run_watch
-from watcher.refresh.texts import CAUTION, VERSION
+from watcher.refresh.texts import CAUTION, VERSION, describe
 
 
 class _Parser(argparse.ArgumentParser):
@@ -154,7 +154,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     except (ValueError, OSError) as exc:    # every layer's errors are ValueErrors
         if args.debug:
             raise
-        print(f"error: {_describe(exc)}", file=sys.stderr)
+        print(f"error: {describe(exc)}", file=sys.stderr)
         return 1
     except Exception as exc:  # a bug of ours: still no traceback unless asked for
         if args.debug:
@@ -162,16 +162,6 @@ def main(argv: Sequence[str] | None = None) -> int:
         print(f"error: internal error ({type(exc).__name__}: {exc}); run the command again with "
               "--debug for the traceback and report it", file=sys.stderr)
         return 1
-
-
-def _describe(exc: BaseException) -> str:
-    if isinstance(exc, FileNotFoundError):
-        return f"{exc.filename}: no such file"
-    if isinstance(exc, PermissionError):
-        return f"{exc.filename}: permission denied"
-    if isinstance(exc, OSError) and exc.filename:
-        return f"{exc.filename}: {exc.strerror}"
-    return str(exc)
 
 
 if __name__ == "__main__":

@@ -12,7 +12,7 @@ from pathlib import Path
 from typing import Any
 
 from watcher.refresh.compute import JobOutcome
-from watcher.refresh.report import describe
+from watcher.refresh.texts import describe
 from watcher.refresh.workbook import Progress, evaluate_book, lay_out
 from watcher.xlsx import package
 

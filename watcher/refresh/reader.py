@@ -62,7 +62,6 @@ from watcher.xlsx.spec import col_letter as column_letter  # one column-letter r
 __all__ = ["ReaderError", "Header", "SheetData", "Book", "open_book", "read_sheet", "read_header",
            "column_letter", "column_index"]
 
-MAX_ROWS = 1_048_576          # rows of a worksheet (ECMA-376 Part 1, 18.3.1.73: row index <= 1048576)
 
 
 def _norm(text: str) -> str:

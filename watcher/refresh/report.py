@@ -14,7 +14,7 @@ from typing import Any
 
 from watcher.refresh.compute import JobOutcome, summary
 
-__all__ = ["JobReport", "RefreshReport", "job_report", "describe"]
+__all__ = ["JobReport", "RefreshReport", "job_report"]
 
 
 @dataclass(frozen=True)
@@ -57,12 +57,3 @@ def job_report(o: JobOutcome, records: dict[str, dict]) -> JobReport:
     return JobReport(o.name, status, rec.get("verdict", ""), next_forecast=rec.get("next_probability"),
                      next_period=rec.get("next_period"), best_method=rec.get("best_method"), sheet=o.sheet,
                      evaluation=o.evaluation)
-
-
-def describe(exc: BaseException) -> str:
-    """An error as one line for a report: a file error names the file and the reason."""
-    if isinstance(exc, FileNotFoundError):
-        return f"{exc.filename}: no such file"
-    if isinstance(exc, OSError):
-        return f"{exc.filename or ''}: {exc.strerror or exc}".lstrip(": ")
-    return str(exc)

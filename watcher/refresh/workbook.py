@@ -30,10 +30,10 @@ from watcher.refresh import layout
 from watcher.refresh.compute import JobOutcome, compute_job, digest, event_text, summary
 from watcher.refresh.jobs import TABLE_SHEET, JobTable, read_job_table
 from watcher.refresh.reader import Book
-from watcher.refresh.report import JobReport, RefreshReport, describe, job_report
+from watcher.refresh.report import JobReport, RefreshReport, job_report
 from watcher.refresh.settings import Row
 from watcher.refresh.sheetnames import output_names
-from watcher.refresh.texts import VERSION
+from watcher.refresh.texts import VERSION, describe
 from watcher.watch.debounce import owner_file  # the owner-file rule; watcher.xlsx.names once it is there
 from watcher.xlsx import package
 
