@@ -13,7 +13,7 @@
 
 The reference approach for both: what one writes without tocsin's reader and writer -- openpyxl
 ``load_workbook`` (full mode: the workbook is to be saved), the data columns read from its cells, the
-**same core and the same sheets** (``watcher.refresh.workbook.compute_job`` and the SheetSpecs of
+**same core and the same sheets** (``watcher.refresh.compute.compute_job`` and the SheetSpecs of
 ``watcher.refresh.layout``, written cell by cell with their number formats; no charts), ``save``. Every run is
 a fresh process on a fresh copy; wall time and peak resident memory come from ``os.wait4``. The ratio
 printed is reference time / tocsin time (target >= 5x on the full-height sheet).
@@ -85,8 +85,9 @@ def reference_refresh(path: Path) -> None:
     from openpyxl.styles import Font
 
     from watcher.refresh import jobs
-    from watcher.refresh import workbook as refresh
+    from watcher.refresh.compute import compute_job
     from watcher.refresh.reader import Book, Header, SheetData
+    from watcher.refresh.workbook import lay_out
     from watcher.xlsx.spec import Cells, Table
 
     with Book(path) as book:  # the job table (a few cells) with tocsin's own reader
@@ -119,8 +120,8 @@ def reference_refresh(path: Path) -> None:
                          names=MappingProxyType({**names, job.date_column: header.texts[jd]}),
                          dates=np.array(stamps, dtype="datetime64[s]"), date_key=job.date_column,
                          warnings=(), nrows=len(stamps), first_row=2, backend="openpyxl")
-        outcome = refresh.compute_job(job, data)
-        for spec in refresh._sheets_for(outcome, now):
+        outcome = compute_job(job, data)
+        for spec in lay_out(outcome, now)[1]:
             out = wb.create_sheet(spec.name)
             for block in spec.blocks:
                 _write_block(out, block, Cells, Table, Font)

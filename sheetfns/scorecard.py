@@ -146,6 +146,76 @@ def best_mask(row: Any, better: str) -> np.ndarray:
     return finite & (row == target)
 
 
+# ---------------------------------------------------------------------------------- modelling policy
+# Shared by the watcher's refresh and the spreadsheet functions, so the two faces give the same model.
+
+MODEL_MAX_MAGNITUDE = 1e100
+"""Largest absolute input value the logistic model takes. Its solver forms sums of squares over the
+rows (X'WX); at 1e100 a million rows sum to 1e206, far inside the double range (about 1.8e308), while
+values near 1e154 and beyond overflow and leave the linear algebra with infinities."""
+
+
+def weekday_terms(frequency: str | None) -> bool:
+    """Whether the logistic model gets weekday indicators: daily data only (weekly patterns are the
+    rule in daily operational data; common practice), with no setting to switch them.
+
+    ``frequency`` is :func:`sheetfns.partition.infer_frequency` of the dates (None without dates).
+
+    >>> weekday_terms("daily"), weekday_terms("weekly"), weekday_terms(None)
+    (True, False, False)
+    """
+    return frequency == "daily"
+
+
+def model_values(values: Any) -> np.ndarray | None:
+    """The value series as it enters the logistic model (as a lagged term), or None when it is itself
+    a 0/1 series: an event defined on a 0/1 column would otherwise enter the model twice (as the lagged
+    event and as the lagged value).
+
+    >>> model_values([0.0, 1.0, float("nan"), 1.0]) is None, model_values([3.0, 0.0, 1.0]).tolist()
+    (True, [3.0, 0.0, 1.0])
+    """
+    if values is None:
+        return None
+    arr = np.asarray(values, dtype=float)
+    observed = arr[~np.isnan(arr)]
+    if observed.size == 0 or np.isin(observed, (0.0, 1.0)).all():
+        return None
+    return arr
+
+
+def profile_period(frequency: str | None) -> str:
+    """The rows of the profile table (:func:`sheetfns.profile.rate_table` ``by``): quarters for
+    quarterly data, months otherwise.
+
+    >>> profile_period("quarterly"), profile_period("weekly"), profile_period("daily")
+    ('quarter', 'month', 'month')
+    """
+    return "quarter" if frequency == "quarterly" else "month"
+
+
+def model_scale_problem(inputs: dict[str, Any]) -> str | None:
+    """Why the logistic model cannot take these inputs (a sentence naming the first input at fault, by
+    its key), or None. An input must be finite where it is given (NaN is missing) and at most
+    :data:`MODEL_MAX_MAGNITUDE` in absolute value, so the solver's sums of squares cannot overflow.
+
+    >>> model_scale_problem({"the value series": [1.0, float("nan"), 2.0]}) is None
+    True
+    >>> model_scale_problem({"predictor 'Flow'": [1.0, -1e308]}).split(",")[0]
+    "predictor 'Flow' reaches -1e+308"
+    """
+    for label, x in inputs.items():
+        if x is None:
+            continue
+        arr = np.asarray(x, dtype=float)
+        bad = np.isinf(arr) | (np.abs(np.nan_to_num(arr)) > MODEL_MAX_MAGNITUDE)
+        if bad.any():
+            worst = arr[bad][np.argmax(np.abs(arr[bad]))]
+            return (f"{label} reaches {worst:g}, beyond the model's limit of {MODEL_MAX_MAGNITUDE:g} in "
+                    f"absolute value (rescale the column, e.g. to thousands)")
+    return None
+
+
 def _cutoff(prob: np.ndarray, cutoff: float) -> np.ndarray:
     out = np.where(prob > cutoff, 1.0, 0.0)
     out[np.isnan(prob)] = np.nan
@@ -175,14 +245,31 @@ def run_methods(events: np.ndarray, *, train_size: int, settings: Settings, date
     methods.append(Method("majority_roll", METHOD_LABELS["majority_roll"], vote_r, share_r))
     notes: list[str] = []
     coefficients = None
-    try:
-        fc = logistic.forecast(
-            events, values=values, predictors=predictors, known_ahead=known_ahead, dates=dates,
-            train_size=train_size, horizon=h, lags=settings.lags, cycle=settings.cycle,
-            harmonics=settings.harmonics, weekday=settings.weekday, refit=settings.refit)
-    except ValueError as exc:  # the data do not allow a logistic model: say so, keep the benchmarks
-        notes.append(f"logistic model not fitted: {exc}")
-    else:
+    inputs = {"the value series": values, **{f"predictor {k!r}": v for k, v in (predictors or {}).items()},
+              **{f"known-ahead input {k!r}": v for k, v in (known_ahead or {}).items()}}
+    problem = model_scale_problem(inputs)
+    if problem is not None:  # never hand overflowing data to the linear algebra
+        notes.append(f"logistic model not fitted: {problem}")
+        return methods, coefficients, notes
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", RuntimeWarning)
+        try:
+            fc = logistic.forecast(
+                events, values=values, predictors=predictors, known_ahead=known_ahead, dates=dates,
+                train_size=train_size, horizon=h, lags=settings.lags, cycle=settings.cycle,
+                harmonics=settings.harmonics, weekday=settings.weekday, refit=settings.refit)
+        except ValueError as exc:  # the data do not allow a logistic model: say so, keep the benchmarks
+            fc = None
+            notes.append(f"logistic model not fitted: {exc}")
+    numeric = [w for w in caught if issubclass(w.category, RuntimeWarning)]
+    for w in caught:
+        if not issubclass(w.category, RuntimeWarning):  # not ours to judge: pass it on
+            warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+    if numeric:
+        notes.append(f"logistic model: the numerical computation warned ({numeric[0].message}"
+                     f"{f'; {len(numeric) - 1} more warnings' if len(numeric) > 1 else ''}); "
+                     f"read its probabilities with care")
+    if fc is not None:
         coefficients = fc.coefficients
         notes.extend(fc.notes)
         prob = np.asarray(fc.prob, dtype=float)

@@ -99,6 +99,22 @@ def test_workbook_open_in_a_spreadsheet_program_is_left_alone(tmp_path, capsys, 
     assert code == 0 and out.startswith("busy.xlsx: refreshed")
 
 
+def test_read_only_workbook_is_left_alone(tmp_path, capsys):
+    """A workbook marked read-only (mode 444) is not replaced, even by a user (root) who could: status
+    "readonly", exit 1, the file as it was; once writable again it is refreshed."""
+    path = macro_book(tmp_path / "locked.xlsx", stop=60)
+    path.chmod(0o444)
+    before = file_state(path)
+    code, out, err = run_cli(capsys, "refresh", "--json", str(path))
+    [rep] = json.loads(out)
+    assert code == 1 and rep["status"] == "readonly" and rep["jobs"] == []
+    assert err.startswith("error: locked.xlsx: not refreshed: locked.xlsx is read-only")
+    assert file_state(path) == before and path.stat().st_mode & 0o777 == 0o444
+    path.chmod(0o644)
+    code, out, err = run_cli(capsys, "refresh", str(path))
+    assert code == 0 and out.startswith("locked.xlsx: refreshed"), err
+
+
 # ---------------------------------------------------------------------------------- invalid settings
 
 # (setting, value, what the message must say): a few of the documented errors of watcher/jobs.py

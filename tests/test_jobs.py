@@ -16,11 +16,15 @@ from pathlib import Path
 
 import pytest
 from openpyxl import Workbook
+from test_refresh import write_book
 
-from sheetfns.errors import JobError, TocsinError
+from sheetfns.errors import TocsinError
 from watcher.refresh import jobs
+from watcher.refresh.errors import JobError
 from watcher.refresh.jobs import SETTINGS, read_job_table, resolve
 from watcher.refresh.reader import open_book
+from watcher.refresh.sheetnames import output_names
+from watcher.xlsx.spec import check_sheet_name
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_workbooks"
 START = dt.date(2024, 1, 1)
@@ -364,22 +368,39 @@ def test_a_column_plays_one_role(tmp_path):
     assert err.setting == "known_ahead"
 
 
-@pytest.mark.parametrize("value, problem", [
-    ("x" * 32, "must be a sheet name of at most 31 characters (it has 32)"),
-    ("a/b", "must be a sheet name without any of : \\ / ? * [ ]"),
-    ("'quoted'", "must be a sheet name that does not start or end with an apostrophe")])
-def test_output_sheet_must_be_a_valid_sheet_name(tmp_path, value, problem):
+# The writer's sheet-name rule (watcher.xlsx.spec.check_sheet_name) is the job table's: each of these is
+# refused as a job error naming the row, `output_sheet` and the value, with the writer's reason.
+@pytest.mark.parametrize("value", ["x" * 32, "a/b", "'quoted'", "History", "HISTORY"])
+def test_output_sheet_must_be_a_sheet_name_the_writer_accepts(tmp_path, value):
+    with pytest.raises(ValueError) as writer:
+        check_sheet_name(value)
     err = _one_error(_read(tmp_path, {**BASE, "output_sheet": value}))
-    assert err.message.startswith(f"`output_sheet` {problem}; got")
+    assert (err.row, err.setting, err.value) == (2, "output_sheet", value)
+    assert err.message == (f"`output_sheet` must be a sheet name the workbook can hold; got {value!r} in "
+                           f"row 2 of sheet tocsin; {writer.value}")
+
+
+def test_job_name_with_a_control_character_is_an_error_of_that_row(tmp_path):
+    # a bell character typed (or pasted) into a name cannot name a sheet; the row is named, not the book
+    path = write_book(tmp_path / "b.xlsx", {"Data": _data_rows(), "tocsin": _table(
+        {**BASE, "job": "bell\x07"}, {**BASE, "job": "calm", "event": "<5"})})
+    table = read_job_table(path)
+    assert [j.name for j in table.jobs] == ["calm"]
+    [err] = table.errors
+    assert (err.row, err.setting, err.value) == (2, "job", "bell\x07")
+    assert err.message.startswith("`job` must be plain text without control characters; got 'bell\\x07' "
+                                  "in row 2 of sheet tocsin")
 
 
 def test_default_sheet_names_are_cut_to_fit_and_cleaned():
-    assert jobs.output_names("high level alarm, station 4") == \
+    assert output_names("high level alarm, station 4") == \
         ("high level alarm, stat forecast", "high level alarm, stat profile")
-    assert all(len(n) <= 31 for n in jobs.output_names("x" * 40))
-    assert jobs.output_names("in/out [A]") == ("in-out -A- forecast", "in-out -A- profile")
-    assert jobs.output_names("j", "a" * 31)[1] == "a" * 23 + " profile"
-    assert jobs.output_names("j", "Alarms FORECAST") == ("Alarms FORECAST", "Alarms profile")
+    assert all(len(n) <= 31 for n in output_names("x" * 40))
+    assert output_names("in/out [A]") == ("in-out -A- forecast", "in-out -A- profile")
+    assert output_names("j", "a" * 31)[1] == "a" * 23 + " profile"
+    assert output_names("j", "Alarms FORECAST") == ("Alarms FORECAST", "Alarms profile")
+    for name in ("bell\x07", "two\nlines", "'quoted'", "a:b", "History"):   # always names the writer takes
+        assert all(check_sheet_name(n) == n for n in output_names(name)), name
 
 
 def test_output_sheets_must_not_collide(tmp_path):

@@ -18,8 +18,9 @@ import pytest
 import xlsxwriter
 from openpyxl import Workbook, load_workbook
 
-from sheetfns.errors import InputError, PackageError, TocsinError
+from sheetfns.errors import InputError, TocsinError
 from watcher.refresh import reader
+from watcher.refresh.errors import BookError
 from watcher.refresh.reader import (
     ReaderError,
     column_index,
@@ -140,11 +141,11 @@ def test_empty_sheet_and_header_without_data(tmp_path, backend):
 
 
 def test_missing_file_and_non_workbook(tmp_path):
-    with pytest.raises(PackageError, match="not found"):
+    with pytest.raises(BookError, match="not found"):
         read_sheet(tmp_path / "nope.xlsx", "Data", ["x"])
     fake = tmp_path / "notes.xlsx"
     fake.write_text("just text", encoding="utf-8")
-    with pytest.raises(PackageError, match="notes.xlsx is not a workbook"):
+    with pytest.raises(BookError, match="notes.xlsx is not a workbook"):
         read_sheet(fake, "Data", ["x"])
 
 
@@ -327,7 +328,7 @@ def test_falls_back_to_openpyxl_when_calamine_cannot(tmp_path, monkeypatch):
     monkeypatch.setattr(python_calamine, "CalamineWorkbook", Broken)
     data = read_sheet(path, "Data", ["x"], date_column="Date")
     assert data.backend == "openpyxl" and data.columns["x"][0] == 1.0
-    with pytest.raises(PackageError, match="simulated parser failure"):
+    with pytest.raises(BookError, match="simulated parser failure"):
         read_sheet(path, "Data", ["x"], backend="calamine")
 
 

@@ -36,8 +36,9 @@ from sheetfns.events import flag
 from sheetfns.scorecard import METHOD_LABELS, SCORE_ROWS, Evaluation, Settings, evaluate
 from watcher import cli
 from watcher.refresh import jobs
-from watcher.refresh.layout import CAUTION, TABLE_COL
+from watcher.refresh.layout import TABLE_COL
 from watcher.refresh.reader import Book
+from watcher.refresh.texts import CAUTION
 
 ROOT = Path(__file__).resolve().parent.parent
 SAMPLES = ROOT / "sample_workbooks"

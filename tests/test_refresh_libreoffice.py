@@ -23,8 +23,9 @@ from test_refresh import GDP_JOB, SAMPLE_NAMES, SAMPLES, core_reference, macro_b
 from sheetfns.scorecard import SCORE_ROWS
 from watcher import cli
 from watcher.refresh import jobs
-from watcher.refresh.layout import CAUTION, TABLE_COL
+from watcher.refresh.layout import TABLE_COL
 from watcher.refresh.reader import Book
+from watcher.refresh.texts import CAUTION
 
 pytestmark = [pytest.mark.slow, pytest.mark.libreoffice]
 PERCENT = re.compile(r"^-?\d+\.\d%$")

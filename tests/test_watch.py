@@ -52,11 +52,11 @@ def workbook_bytes(content: str) -> bytes:
 
 
 def input_digest(path: Path) -> str:
-    """The fingerprint of a workbook's inputs: every member except tocsin's marker."""
+    """The fingerprint of a workbook's inputs: every member except tocsin's own (``tocsin/...``)."""
     digest = hashlib.sha256()
     with zipfile.ZipFile(path) as z:
         for name in sorted(z.namelist()):
-            if name != MARKER:
+            if not name.startswith("tocsin/"):
                 digest.update(name.encode() + b"\0" + z.read(name))
     return digest.hexdigest()
 
@@ -125,8 +125,9 @@ class FakeRefresh:
     """A refresh that keeps ``refresh_workbook``'s contract (see the module docstring)."""
 
     def __init__(self, compute_s: float = 0.02, fail: dict[str, Exception] | None = None,
-                 started_dir: Path | None = None) -> None:
+                 started_dir: Path | None = None, write_s: float = 0.0) -> None:
         self.compute_s = compute_s
+        self.write_s = write_s  # the write takes this long (padding streamed into the temporary file)
         self.fail = fail or {}
         self.started_dir = started_dir
         self.calls: list[Call] = []
@@ -172,6 +173,8 @@ class FakeRefresh:
             if progress is not None:
                 progress("compute")
             time.sleep(min(0.02, max(end - time.monotonic(), 0)))
+        if progress is not None:
+            progress("write", final=True)  # as the real refresh: the last abandon point, the write follows
         tmp = path.with_name(f".tocsin-{uuid.uuid4().hex[:8]}.tmp")
         try:
             with zipfile.ZipFile(path) as src, zipfile.ZipFile(tmp, "w") as dst:
@@ -179,8 +182,14 @@ class FakeRefresh:
                     if info.filename != MARKER:
                         dst.writestr(info, src.read(info))
                 dst.writestr(MARKER, digest)
-            if progress is not None:
-                progress("write")
+                if self.write_s:
+                    if self.started_dir is not None:
+                        (self.started_dir / f"writing-{path.name}").write_text("1")
+                    end = time.monotonic() + self.write_s
+                    with dst.open("tocsin/padding.bin", "w") as pad:
+                        while time.monotonic() < end:
+                            pad.write(bytes(65536))
+                            time.sleep(0.01)
             after = os.stat(path)  # changed while computing? then write nothing
             if (after.st_size, after.st_mtime_ns, after.st_ino) != (before.st_size, before.st_mtime_ns,
                                                                       before.st_ino):
@@ -365,6 +374,38 @@ def test_refresh_raising_is_logged_with_the_workbook_and_the_watcher_carries_on(
     assert failed[str(share / "damaged.xlsx")]["message"] == truncated
     text = rig.stream.getvalue()
     assert "broken.xlsx" in text and "Traceback" not in text
+
+
+def test_a_failed_write_is_logged_and_the_watcher_refreshes_the_next_workbook(share, monkeypatch):
+    """The real refresh on two workbooks (statsmodels' macrodata, see test_refresh) whose package write
+    fails for one (as on a full disk): that one is logged as failed with the writer's message, nothing
+    of it changes, and the other is refreshed."""
+    from test_refresh import macro_book
+
+    from watcher.refresh.workbook import refresh_workbook
+    from watcher.xlsx import package
+
+    real_write = package.write
+
+    def write(path, *args, **kwargs):
+        if Path(path).name == "full.xlsx":
+            raise package.PackageError("cannot write 'full.xlsx': No space left on device")
+        return real_write(path, *args, **kwargs)
+
+    monkeypatch.setattr(package, "write", write)
+    full = macro_book(share / "full.xlsx", stop=60)
+    shutil.copyfile(full, share / "good.xlsx")
+    saved = full.read_bytes()
+    with Rig(share, refresh=refresh_workbook, initial=True) as rig:   # full.xlsx first, then good.xlsx
+        assert wait_for(lambda: {r["workbook"] for r in rig.events("refresh")} >= {str(full),
+                                                                                  str(share / "good.xlsx")},
+                        timeout=60)
+    status = {r["workbook"]: r for r in rig.events("refresh")}
+    assert status[str(full)]["status"] == "failed"
+    assert status[str(full)]["message"] == "cannot write 'full.xlsx': No space left on device"
+    assert status[str(share / "good.xlsx")]["status"] == "refreshed"
+    assert full.read_bytes() == saved and not list(share.glob(".tocsin-*.tmp"))
+    assert "gdp fall forecast" in package.Package.open(share / "good.xlsx").sheet_names
 
 
 def test_failed_job_is_named_in_the_log(share):

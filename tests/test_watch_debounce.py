@@ -314,7 +314,7 @@ def test_stop_drops_pending_paths_and_ends_the_thread(rig):
 
 def test_negative_quiet_is_refused():
     with pytest.raises(ValueError, match="`quiet` must be a number of seconds >= 0; got -1"):
-        Debouncer(lambda p: None, quiet=-1)
+        Debouncer(lambda p: None, quiet=-1, probe=FakeProbe())
 
 
 def test_size_and_mtime_look_adds_no_delay_to_the_quiet_wait(rig):

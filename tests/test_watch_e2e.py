@@ -3,7 +3,7 @@
 Checks the whole loop: the initial refresh writes the forecast sheets; tocsin's own write comes back as
 "unchanged" (no loop); a colleague's save (one data cell edited inside the package, every other part
 kept, as a spreadsheet program re-saves) gives exactly one more refresh; a damaged workbook is logged
-and the watcher carries on; ``python -m watcher.watch.service`` stops on SIGTERM with exit code 0.
+and the watcher carries on; ``python -m watcher.cli watch`` stops on SIGTERM with exit code 0.
 """
 from __future__ import annotations
 
@@ -133,7 +133,7 @@ def test_module_entry_with_the_real_refresh_stops_on_sigterm(tmp_path):
     shutil.copy(SAMPLE, share / "ferry.xlsx")
     log = tmp_path / "log.jsonl"
     env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(ROOT), os.environ.get("PYTHONPATH", "")]))
-    proc = subprocess.Popen([sys.executable, "-m", "watcher.watch.service", str(share), "--quiet", "0.3",
+    proc = subprocess.Popen([sys.executable, "-m", "watcher.cli", "watch", str(share), "--quiet", "0.3",
                              "--log", str(log)], env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE,
                             text=True)
     try:

@@ -1,6 +1,6 @@
 """The watcher as a process: SIGTERM and Ctrl-C stop it within a few seconds with exit code 0.
 
-A subprocess runs ``watcher.watch.service.main_watch`` on a temporary folder with the contract-keeping fake
+A subprocess runs ``watcher.cli.watch.main_watch`` on a temporary folder with the contract-keeping fake
 refresh of ``test_watch`` (its computing time set per test), so the signal can land while it is idle,
 while a refresh is computing for a long time (abandoned cleanly: nothing written, no temporary left) or
 just before the write of a short refresh (finished within the grace period).
@@ -29,14 +29,16 @@ import sys
 from pathlib import Path
 sys.path.insert(0, sys.argv[1])
 from test_watch import FakeRefresh
-from watcher.watch.service import main_watch
-fake = FakeRefresh(compute_s=float(sys.argv[4]), started_dir=Path(sys.argv[3]))
-sys.exit(main_watch([sys.argv[2]], quiet=0.2, initial=False, log=sys.argv[5], refresh=fake))
+from watcher.cli.watch import main_watch
+fake = FakeRefresh(compute_s=float(sys.argv[4]), started_dir=Path(sys.argv[3]), write_s=float(sys.argv[6]))
+sys.exit(main_watch([sys.argv[2]], quiet=0.2, initial=False, log=sys.argv[5], refresh=fake,
+                    write_grace=float(sys.argv[7])))
 """
 
 
 class Proc:
-    def __init__(self, tmp_path: Path, compute_s: float) -> None:
+    def __init__(self, tmp_path: Path, compute_s: float, write_s: float = 0.0,
+                 write_grace: float = 10.0) -> None:
         self.share = tmp_path.resolve() / "share"
         self.share.mkdir()
         self.markers = tmp_path / "markers"
@@ -45,7 +47,7 @@ class Proc:
         env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(ROOT), os.environ.get("PYTHONPATH", "")]))
         self.popen = subprocess.Popen(
             [sys.executable, "-c", SCRIPT, str(TESTS), str(self.share), str(self.markers), str(compute_s),
-             str(self.log)],
+             str(self.log), str(write_s), str(write_grace)],
             env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
         assert wait_for(lambda: self.events("start") or self.popen.poll() is not None, timeout=30)
         assert self.popen.poll() is None, self.popen.communicate()
@@ -77,8 +79,8 @@ class Proc:
 def proc_factory(tmp_path):
     made: list[Proc] = []
 
-    def make(compute_s: float) -> Proc:
-        proc = Proc(tmp_path, compute_s)
+    def make(compute_s: float, **kwargs) -> Proc:
+        proc = Proc(tmp_path, compute_s, **kwargs)
         made.append(proc)
         return proc
 
@@ -127,15 +129,34 @@ def test_short_refresh_in_flight_finishes_its_write(proc_factory):
     assert [r["status"] for r in proc.events("refresh")] == ["refreshed"]
 
 
+def test_long_write_in_flight_is_abandoned_within_the_stop_time_and_leaves_nothing(proc_factory):
+    """A write that outlasts the write grace (here 1 s; 10 s by default) gets RefreshAbandoned raised
+    in its thread: the temporary file goes, the workbook is the one that was saved, exit 0."""
+    proc = proc_factory(compute_s=0.01, write_s=60.0, write_grace=1.0)
+    book = proc.share / "ferry.xlsx"
+    save_by_rename(book, "today")
+    saved = book.read_bytes()
+    assert wait_for(lambda: (proc.markers / "writing-ferry.xlsx").exists(), timeout=15)
+    assert wait_for(lambda: len(list(proc.share.glob(".tocsin-*.tmp"))) == 1, timeout=5)
+    code, took, err = proc.signal_and_wait(signal.SIGTERM, limit=6.0)
+    assert code == 0 and took < 6.0, err
+    assert book.read_bytes() == saved
+    assert not list(proc.share.glob(".tocsin-*.tmp"))
+    [attempt] = proc.events("refresh")
+    assert attempt["status"] == "abandoned"
+    [stop] = proc.events("stop")
+    assert stop["clean"] is True
+
+
 def test_bad_path_is_an_error_message_not_a_traceback(tmp_path):
     env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(ROOT), os.environ.get("PYTHONPATH", "")]))
-    run = subprocess.run([sys.executable, "-m", "watcher.watch.service", str(tmp_path / "nowhere"),
+    run = subprocess.run([sys.executable, "-m", "watcher.cli", "watch", str(tmp_path / "nowhere"),
                           "--quiet", "0.5"],
                          env=env, capture_output=True, text=True, timeout=60)
     assert run.returncode == 2
     assert run.stderr.startswith("error: `PATH` must be an existing folder or workbook;")
     assert "Traceback" not in run.stderr
-    bad = subprocess.run([sys.executable, "-m", "watcher.watch.service", str(tmp_path), "--poll", "soon"],
+    bad = subprocess.run([sys.executable, "-m", "watcher.cli", "watch", str(tmp_path), "--poll", "soon"],
                          env=env, capture_output=True, text=True, timeout=60)
     assert bad.returncode == 2 and "`--poll` must be a number of seconds > 0; got 'soon'" in bad.stderr
 

@@ -8,6 +8,8 @@ import time
 from dataclasses import dataclass
 from pathlib import Path
 
+import pytest
+
 from sheetfns.errors import PackageError
 from watcher.watch.log import WatchLog
 from watcher.watch.worker import Outcome, RefreshWorker
@@ -150,6 +152,88 @@ def test_stop_drops_the_queue_and_abandons_a_long_refresh_through_progress():
     assert gate.calls == [A]
 
 
+def test_a_write_error_of_another_layer_is_a_failed_outcome_without_traceback():
+    """The writer's exception family is its own (ValueError subclasses): a failed write is an expected
+    error, logged with its message, and the next workbook is refreshed."""
+    class WriteError(ValueError):   # stands for the writer's family, which is not the core's
+        pass
+
+    def refresh(path, *, progress=None):
+        if path == A:
+            raise WriteError("cannot write 'ferry.xlsx': No space left on device")
+        return Report(path, "refreshed")
+
+    outcomes: list[Outcome] = []
+    worker = run(RefreshWorker(refresh, on_outcome=outcomes.append))
+    try:
+        worker.submit(A)
+        worker.submit(B)
+        assert wait_for(lambda: len(outcomes) == 2)
+    finally:
+        worker.stop()
+    assert [(o.path, o.status) for o in outcomes] == [(A, "failed"), (B, "refreshed")]
+    assert outcomes[0].message == "cannot write 'ferry.xlsx': No space left on device"
+    assert outcomes[0].traceback is None
+
+
+class LongStep:
+    """A refresh that, after its last progress call, runs a long step that never calls progress (a
+    long computation, or -- with ``final`` -- a long write), cleaning up after itself as the package
+    writer does (its temporary file removed on any exception)."""
+
+    def __init__(self, *, final: bool, step_s: float) -> None:
+        self.final, self.step_s = final, step_s
+        self.started = threading.Event()
+        self.cleaned = threading.Event()
+        self.finished = threading.Event()
+
+    def __call__(self, path: Path, *, progress=None) -> Report:
+        progress("last call", final=self.final)
+        self.started.set()
+        try:
+            end = time.monotonic() + self.step_s
+            while time.monotonic() < end:
+                sum(range(1000))        # busy in Python, never calling progress
+        except BaseException:
+            self.cleaned.set()
+            raise
+        self.finished.set()
+        return Report(path, "refreshed")
+
+
+def test_stop_abandons_a_long_step_that_never_calls_progress():
+    step = LongStep(final=False, step_s=60.0)
+    outcomes: list[Outcome] = []
+    worker = run(RefreshWorker(step, on_outcome=outcomes.append))
+    worker.submit(A)
+    assert step.started.wait(5)
+    started = time.monotonic()
+    dropped, clean = worker.stop(grace=0.2, abandon_wait=1.0)
+    assert time.monotonic() - started < 2.0
+    assert clean and step.cleaned.is_set() and not step.finished.is_set()
+    assert [o.status for o in outcomes] == ["abandoned"]
+
+
+def test_stop_lets_a_write_finish_within_write_grace_then_abandons_a_longer_one():
+    short = LongStep(final=True, step_s=1.0)     # longer than grace, shorter than write_grace
+    outcomes: list[Outcome] = []
+    worker = run(RefreshWorker(short, on_outcome=outcomes.append))
+    worker.submit(A)
+    assert short.started.wait(5)
+    dropped, clean = worker.stop(grace=0.1, write_grace=5.0, abandon_wait=1.0)
+    assert clean and short.finished.is_set() and [o.status for o in outcomes] == ["refreshed"]
+
+    long = LongStep(final=True, step_s=60.0)
+    outcomes.clear()
+    worker = run(RefreshWorker(long, on_outcome=outcomes.append))
+    worker.submit(A)
+    assert long.started.wait(5)
+    started = time.monotonic()
+    dropped, clean = worker.stop(grace=0.1, write_grace=0.5, abandon_wait=1.0)
+    assert time.monotonic() - started < 2.5
+    assert clean and long.cleaned.is_set() and [o.status for o in outcomes] == ["abandoned"]
+
+
 def test_stop_lets_a_short_refresh_finish():
     gate = Gate()
     outcomes: list[Outcome] = []
@@ -199,13 +283,15 @@ def test_log_lines_and_json_records(tmp_path):
     assert records[2]["owner_file"] == "/share/~$bakery.xlsx"
 
 
-def test_importing_the_watcher_stays_light():
-    # `tocsin --help` builds the watch parser: no watchdog or computation stack until it starts
+@pytest.mark.parametrize("module", ["watcher.watch.service", "watcher.cli.command"])
+def test_importing_the_watcher_and_the_command_stays_light(module):
+    # `tocsin --help` builds the watch parser: no watchdog or computation stack until it starts (the
+    # lazy imports' comments give the measured cost)
     import subprocess
     import sys
 
-    code = ("import sys, watcher.watch.service; print(sorted(m for m in ('watchdog', 'pandas', "
-            "'statsmodels', 'numpy', 'scipy', 'watcher.refresh.workbook') if m in sys.modules))")
+    code = (f"import sys, {module}; print(sorted(m for m in ('watchdog', 'pandas', "
+            "'statsmodels', 'numpy', 'scipy', 'openpyxl', 'watcher.refresh.workbook') if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60,
                          cwd=Path(__file__).resolve().parent.parent)
     assert out.returncode == 0, out.stderr

@@ -6,6 +6,9 @@ import sys
 from pathlib import Path
 
 from sheetfns.errors import InputError
+from watcher.cli import tables as report
+from watcher.refresh.texts import CAUTION
+from watcher.refresh.workbook import refresh_workbook
 
 SAMPLES = ("island_ferry.xlsx", "bakery_sales.xlsx", "pump_station.xlsx")
 EXTRAS = ("formulas_demo.xlsx",)  # spreadsheet-function demo: opened on a desktop, not refreshed
@@ -22,8 +25,6 @@ def samples_dir() -> Path:
 
 
 def run_demo(target: Path, *, progress=None, out=sys.stdout) -> int:
-    from watcher.cli import tables as report
-    from watcher.refresh import workbook as refresh
     src = samples_dir()
     target = Path(target)
     target.mkdir(parents=True, exist_ok=True)
@@ -38,7 +39,7 @@ def run_demo(target: Path, *, progress=None, out=sys.stdout) -> int:
             books.append(dest)
     status = 0
     for book in books:
-        rep = refresh.refresh_workbook(book, force=True, progress=progress)
+        rep = refresh_workbook(book, force=True, progress=progress)
         if progress:
             sys.stderr.write("\r\x1b[K")
         print("", file=out)
@@ -59,7 +60,5 @@ def run_demo(target: Path, *, progress=None, out=sys.stdout) -> int:
     if any((target / e).exists() for e in EXTRAS):
         print(f"  {target / EXTRAS[0]}  (the spreadsheet functions; needs the xlwings add-in)", file=out)
     print(f"\nKeep them current while colleagues save: tocsin watch {target}", file=out)
-    print("\nCaution: these are statistical forecasts from past data, not a substitute for official "
-          "warnings, clinical or engineering judgement, or the procedures that apply where you work.",
-          file=out)
+    print(f"\n{CAUTION}", file=out)
     return status

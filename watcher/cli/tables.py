@@ -7,6 +7,12 @@ from typing import Any
 from sheetfns.scorecard import SCORE_ROWS, best_mask
 
 
+def _shown(name: str) -> str:
+    """A name as the terminal should print it: control characters escaped (a bell in a job name must
+    not ring, a newline must not start a line of its own)."""
+    return "".join(ch if ch.isprintable() else ascii(ch)[1:-1] for ch in name)
+
+
 def _pct(p: float | None) -> str:
     return "-" if p is None or (isinstance(p, float) and math.isnan(p)) else f"{p:.0%}"
 
@@ -18,11 +24,11 @@ def refresh_text(rep: Any) -> str:
     lines = [head]
     for j in rep.jobs:
         if j.status == "failed":
-            lines.append(f"  {j.name}: FAILED: {j.message}")
+            lines.append(f"  {_shown(j.name)}: FAILED: {_shown(j.message)}")
             continue
         nxt = (f"next period {j.next_period}: {_pct(j.next_forecast)} chance of the event"
                if j.next_period else "no future period in the data")
-        lines.append(f"  {j.name}: {j.status}; {nxt} (best by Brier: {j.best_method or '-'})")
+        lines.append(f"  {_shown(j.name)}: {j.status}; {nxt} (best by Brier: {j.best_method or '-'})")
     return "\n".join(lines)
 
 
@@ -30,10 +36,10 @@ def refresh_errors(rep: Any) -> list[str]:
     """The errors of a refresh, one line each, for stderr: the workbook's, then each failed job's."""
     name = rep.path.name
     out = [f"{name}: {rep.message}"] if rep.status in ("failed", "nojobs") else []
-    if rep.status in ("busy", "conflict"):  # not refreshed this time; a later run will
+    if rep.status in ("busy", "conflict", "readonly"):  # not refreshed this time
         out.append(f"{name}: not refreshed: {rep.message}")
     out += [f"{name}: job {j.name!r}: {j.message}" for j in rep.jobs if j.status == "failed"]
-    return out
+    return [_shown(line) for line in out]
 
 
 def refresh_dict(rep: Any) -> dict[str, Any]:
@@ -99,7 +105,7 @@ def check_errors(result: Any) -> list[str]:
     lines += [f"{name}: {e.message}" for e in result.table.errors]
     lines += [f"{name}: job {o.name!r}: {o.error}" for o in result.outcomes
               if o.error and (o.job is not None or o.blocked)]
-    return lines
+    return [_shown(line) for line in lines]
 
 
 def check_text(result: Any) -> str:

@@ -31,11 +31,11 @@ from typing import Any
 
 import numpy as np
 
-from sheetfns.scorecard import SCORE_ROWS, Evaluation, best_mask
+from sheetfns.scorecard import METHOD_LABELS, SCORE_ROWS, Evaluation, best_mask
+from watcher.refresh.texts import CAUTION
 from watcher.xlsx.spec import Cells, ChartSpec, Column, Range, Ref, Series, SheetSpec, Table
 
-CAUTION = ("Caution: these are statistical forecasts from past data, not a substitute for official "
-           "warnings, clinical or engineering judgement, or the procedures that apply where you work.")
+__all__ = ["CAUTION", "TABLE_COL", "SheetContext", "forecast_sheet", "failed_sheet", "profile_sheet"]
 TABLE_COL = 9  # column J: the row-by-row table
 MAX_NOTES = 12
 WRAP = 105  # characters of text per row in the left panel (columns B..H)
@@ -180,8 +180,6 @@ def _significance(blocks: list[Any], r: int, ev: Evaluation) -> int:
     c = ev.comparisons
     if "logistic_vs_best_dm" not in c:
         return r
-    from sheetfns.scorecard import METHOD_LABELS
-
     other = METHOD_LABELS.get(str(c.get("best_benchmark")), str(c.get("best_benchmark")))
     rows = (((f"logistic vs {other} (validation period)", "bold"),),
             (("test", "header"), ("statistic", "header"), ("p-value", "header")),

@@ -33,10 +33,11 @@ How cells are read
   whose cells lack a date format -- except that a column of whole numbers all between 1000 and 2999
   is read as years (1 January of each year). Anything else is NaT with a warning naming the cell.
 
-Errors (:class:`ReaderError`, a :class:`~sheetfns.errors.InputError`) name the workbook, the sheet and
-the column, with the closest header or sheet name when one is near: a missing sheet, a missing
-column, an empty sheet, a sheet with a header row but no data. A file that is missing, not a workbook,
-or encrypted raises :class:`~sheetfns.errors.PackageError`.
+Errors (:class:`~watcher.refresh.errors.ReaderError`) name the workbook, the sheet and the column, with
+the closest header or sheet name when one is near: a missing sheet, a missing column, an empty sheet,
+a sheet with a header row but no data, a sheet whose part is damaged or unsafe (then neither parser
+reads it; the other sheets still read). A file that is missing, not a workbook, or encrypted raises
+:class:`~watcher.refresh.errors.BookError`. The conversion of the cells is :mod:`watcher.refresh.columns`.
 """
 from __future__ import annotations
 
@@ -51,45 +52,30 @@ from types import MappingProxyType
 from typing import Any
 
 import numpy as np
+import python_calamine
 
-from sheetfns.errors import InputError, PackageError
+from sheetfns.errors import InputError
+from watcher.refresh.columns import blank, column_index, dates_of, is_letter, numbers_of
+from watcher.refresh.errors import BookError, ReaderError
 from watcher.xlsx.spec import col_letter as column_letter  # one column-letter rule for reading and writing
 
 __all__ = ["ReaderError", "Header", "SheetData", "Book", "open_book", "read_sheet", "read_header",
            "column_letter", "column_index"]
 
-MAX_ROWS = 1_048_576          # rows of a worksheet (ECMA-376 Part 1, 18.3.1.73: row index <= 1048576)
-MAX_COLUMNS = 16_384          # columns A..XFD
-_LETTERS = re.compile(r"[A-Za-z]{1,3}")
-_PLAIN_NUMBER = re.compile(r"\s*[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?\s*")
-_EPOCH_ORDINAL = dt.date(1970, 1, 1).toordinal()
-_SERIAL_1900 = dt.datetime(1899, 12, 30)   # serial 0 of the 1900 system, right for serials >= 61
-_SERIAL_1904 = dt.datetime(1904, 1, 1)
-_type_of = np.frompyfunc(type, 1, 1)
-_NUMERIC_TYPES = [float, int, bool]
-_NONE_TYPE = [type(None)]
-
-
-class ReaderError(InputError):
-    """A sheet or column cannot be read as asked; the message names workbook, sheet and column."""
-
-
-# --------------------------------------------------------------------------------------------- columns
-
-def column_index(letter: str) -> int:
-    """The 0-based index of the column ``letter`` ('A' -> 0, 'xfd' -> 16383)."""
-    if not isinstance(letter, str) or not _LETTERS.fullmatch(letter.strip()):
-        raise InputError(f"`letter` must be a column letter such as 'A' or 'BC'; got {letter!r}")
-    index = 0
-    for ch in letter.strip().upper():
-        index = index * 26 + ord(ch) - 64
-    if index > MAX_COLUMNS:
-        raise InputError(f"`letter` must be a column from A to XFD; got {letter!r}")
-    return index - 1
 
 
 def _norm(text: str) -> str:
     return " ".join(text.split()).casefold()
+
+
+@dataclass(frozen=True)
+class Absent:
+    """Why a name names no column: ``kind`` ('blank', 'ambiguous', 'outside' or 'missing'), ``reason``
+    (the words, without the sheet and workbook) and ``hint`` ('; did you mean ...?' or '')."""
+
+    kind: str
+    reason: str
+    hint: str = ""
 
 
 @dataclass(frozen=True)
@@ -117,41 +103,37 @@ class Header:
         Raises :class:`ReaderError` naming the sheet and the closest header when there is none, or when
         the header text appears in more than one column. ``what`` names the setting in the message.
         """
-        index, reason = self.locate(name)
+        index, absent = self.locate(name)
         if index is not None:
             return index
-        raise ReaderError(f"{what} {name!r} {reason}")
-
-    def locate(self, name: str) -> tuple[int | None, str]:
-        """``(index, '')`` for a column found, else ``(None, reason)``: why ``name`` names no column,
-        with the closest header (the reason names the sheet and the workbook)."""
+        assert absent is not None
         where = f"sheet {self.sheet!r} in {self.book}"
+        place = {"blank": f"in {where}", "ambiguous": f"in {where}", "outside": f"of {where}",
+                 "missing": f"of {where}"}[absent.kind]
+        raise ReaderError(f"{what} {name!r} {absent.reason} {place}{absent.hint}", book=self.book,
+                          sheet=self.sheet, column=str(name), hint=absent.hint)
+
+    def locate(self, name: str) -> tuple[int | None, Absent | None]:
+        """``(index, None)`` for a column found, else ``(None, why)``."""
         key = _norm(str(name))
         if not key:
-            return None, f"must name a column; got a blank in {where}"
+            return None, Absent("blank", "must name a column; got a blank")
         hits = [j for j, t in enumerate(self.texts) if _norm(t) == key]
         if len(hits) > 1:
             cols = " and ".join(column_letter(j) for j in hits[:2])
-            return None, (f"matches the header of columns {cols} in {where}; rename one or give the "
-                          f"column letter")
+            return None, Absent("ambiguous", f"matches the header of columns {cols}",
+                                "; rename one or give the column letter")
         if hits:
-            return hits[0], ""
-        if _LETTERS.fullmatch(str(name).strip()):
+            return hits[0], None
+        if is_letter(str(name)):
             j = column_index(str(name))
             if j < len(self.texts):
-                return j, ""
+                return j, None
             hint = self.suggest(name)
-            return None, (f"is outside the used columns A:{column_letter(max(len(self.texts) - 1, 0))} "
-                          f"of {where}{hint if hint.startswith('; did you mean') else ''}")
-        return None, f"not found in the header row (row {self.row}) of {where}{self.suggest(name)}"
-
-    def has(self, name: str) -> bool:
-        """Whether :meth:`find` would find ``name``."""
-        try:
-            self.find(name)
-        except ReaderError:
-            return False
-        return True
+            return None, Absent("outside", f"is outside the used columns "
+                                           f"A:{column_letter(max(len(self.texts) - 1, 0))}",
+                                hint if hint.startswith("; did you mean") else "")
+        return None, Absent("missing", f"not found in the header row (row {self.row})", self.suggest(name))
 
     def suggest(self, name: str) -> str:
         """'; did you mean 'X'?' for the closest header text, or a list of the headers."""
@@ -231,13 +213,8 @@ class _Grid:
     texts: tuple[str, ...]
 
 
-def _blank(v: Any) -> bool:
-    """A blank cell: None, or text of spaces only (calamine's blank is '')."""
-    return v is None or (v.__class__ is str and not v.strip())
-
-
 def _header_text(v: Any) -> str:
-    if _blank(v):
+    if blank(v):
         return ""
     if isinstance(v, float) and v.is_integer():
         return str(int(v))
@@ -255,7 +232,7 @@ class Book:
         if backend not in ("auto", "calamine", "openpyxl"):
             raise InputError(f"`backend` must be 'auto', 'calamine' or 'openpyxl'; got {backend!r}")
         if not self.path.is_file():
-            raise PackageError(f"workbook {str(self.path)!r} not found")
+            raise BookError(f"workbook {str(self.path)!r} not found", book=self.name)
         self._cal = None
         self._opx = None
         self._grids: dict[str, _Grid] = {}
@@ -263,32 +240,33 @@ class Book:
         self.backend = "openpyxl"
         if backend in ("auto", "calamine"):
             try:
-                import python_calamine
-
                 self._cal = python_calamine.CalamineWorkbook.from_path(str(self.path))
                 self.backend = "calamine"
             except Exception as exc:   # calamine cannot: let openpyxl try, or explain
                 if backend == "calamine" or _is_encrypted(exc):
-                    raise self._package_error(exc) from exc
+                    raise self._book_error(exc) from exc
         if self._cal is None:
             self._open_openpyxl()
 
     # -- opening
 
-    def _package_error(self, exc: BaseException) -> PackageError:
+    def _book_error(self, exc: BaseException) -> BookError:
         if _is_encrypted(exc):
-            return PackageError(f"{self.name} is encrypted (password protected); tocsin cannot read it")
+            return BookError(f"{self.name} is encrypted (password protected); tocsin cannot read it",
+                             book=self.name)
         if not zipfile.is_zipfile(self.path) and self.path.suffix.lower() in (".xlsx", ".xlsm"):
-            return PackageError(f"{self.name} is not a workbook (not a zip package)")
-        return PackageError(f"{self.name} cannot be read as a workbook: {exc}")
+            return BookError(f"{self.name} is not a workbook (not a zip package)", book=self.name)
+        return BookError(f"{self.name} cannot be read as a workbook: {_brief(exc)}", book=self.name)
 
     def _open_openpyxl(self) -> None:
+        # Imported here, not at the top: openpyxl is the fallback parser and its import takes 0.2-0.35 s
+        # (python -X importtime, three runs), paid only when calamine cannot read a file.
         import openpyxl
 
         try:
             self._opx = openpyxl.load_workbook(self.path, read_only=True, data_only=True)
         except Exception as exc:
-            raise self._package_error(exc) from exc
+            raise self._book_error(exc) from exc
         self._cal = None
         self.backend = "openpyxl"
 
@@ -325,7 +303,8 @@ class Book:
         close = difflib.get_close_matches(key, list(folded), n=1, cutoff=0.6)
         hint = (f"; did you mean {folded[close[0]]!r}?" if close
                 else f"; the sheets are {', '.join(repr(n) for n in names)}")
-        raise ReaderError(f"{what} {sheet!r} not found in {self.name}{hint}")
+        raise ReaderError(f"{what} {sheet!r} not found in {self.name}{hint}", book=self.name,
+                          sheet=str(sheet), hint=hint)
 
     def date1904(self) -> bool:
         """Whether the workbook uses the 1904 date system (for serial numbers in date columns)."""
@@ -343,12 +322,25 @@ class Book:
                 self._grids[name] = self._load(name)
             except ReaderError:
                 raise
-            except Exception as exc:
+            except Exception as first:
+                # calamine failed on this sheet (a damaged part, say): openpyxl tries it; when it fails
+                # too, the sheet is unreadable -- an error of the jobs that read it, not of the workbook
                 if self._cal is None:
-                    raise self._package_error(exc) from exc
-                self._open_openpyxl()            # calamine failed on this sheet: try openpyxl
-                self._grids[name] = self._load(name)
+                    raise self._sheet_error(name, first) from first
+                try:
+                    self._open_openpyxl()
+                    self._grids[name] = self._load(name)
+                except BookError as exc:
+                    raise self._sheet_error(name, first) from exc
+                except ReaderError:
+                    raise
+                except Exception as exc:
+                    raise self._sheet_error(name, exc) from exc
         return self._grids[name]
+
+    def _sheet_error(self, name: str, exc: BaseException) -> ReaderError:
+        return ReaderError(f"sheet {name!r} in {self.name} cannot be read: its part of the file is damaged "
+                           f"or unsafe ({_brief(exc)})", book=self.name, sheet=name)
 
     def _load(self, name: str) -> _Grid:
         if self._cal is not None:
@@ -358,15 +350,15 @@ class Book:
             ws = self._opx[name]
             rows = [list(r) for r in ws.iter_rows(values_only=True)]
         top = 0
-        while top < len(rows) and all(_blank(v) for v in rows[top]):
+        while top < len(rows) and all(blank(v) for v in rows[top]):
             top += 1
         if top == len(rows):
             raise ReaderError(f"sheet {name!r} in {self.name} is empty; expected a header row "
-                              f"and data rows")
+                              f"and data rows", book=self.name, sheet=name)
         width = max(len(rows[top]), len(rows[-1]))
-        if _blank(rows[top][-1]):                # trailing columns without a header: are they used?
+        if blank(rows[top][-1]):                # trailing columns without a header: are they used?
             width = max(len(r) for r in rows)
-            while width and all(len(r) < width or _blank(r[width - 1]) for r in rows[top:]):
+            while width and all(len(r) < width or blank(r[width - 1]) for r in rows[top:]):
                 width -= 1
         texts = tuple(_header_text(rows[top][j] if j < len(rows[top]) else None) for j in range(width))
         return _Grid(rows=rows[top:], top=top, header_row=top + 1, texts=texts)
@@ -381,7 +373,7 @@ class Book:
         """Every used row of ``sheet`` from the header row down, as lists of cell values (None for a
         blank; numbers as float or int; TRUE/FALSE as bool; dates as ``datetime``/``date``). For small
         tables such as the job table."""
-        return [[None if _blank(v) else v for v in r] for r in self._grid(sheet).rows]
+        return [[None if blank(v) else v for v in r] for r in self._grid(sheet).rows]
 
     def first_row(self, sheet: str) -> int:
         """The 1-based sheet row number of the header row of ``sheet``."""
@@ -410,25 +402,25 @@ class Book:
         nrows = 0
         for col in cols.values():
             for i in range(len(col) - 1, nrows - 1, -1):
-                if not _blank(col[i]):
+                if not blank(col[i]):
                     nrows = i + 1
                     break
         if nrows == 0:
             shown = ", ".join(repr(k) for k in index)
             raise ReaderError(f"sheet {head.sheet!r} in {self.name} has a header row but no data in "
-                              f"column(s) {shown}")
+                              f"column(s) {shown}", book=self.name, sheet=head.sheet)
         first = grid.header_row + 1
         warnings: list[str] = []
         floats: dict[str, np.ndarray] = {}
         raws: dict[str, np.ndarray] = {}
         dates = None
         if date_key is not None:
-            dates, msgs = _dates(cols[date_key][:nrows], column_letter(index[date_key]), first,
-                                 self.date1904, max_warnings)
+            dates, msgs = dates_of(cols[date_key][:nrows], column_letter(index[date_key]), first,
+                                   self.date1904, max_warnings)
             warnings += msgs
         for k in value_keys:
-            values, raw, msgs = _numbers(cols[k][:nrows], column_letter(index[k]), first,
-                                         keep_text=k in text_keys, max_warnings=max_warnings)
+            values, raw, msgs = numbers_of(cols[k][:nrows], column_letter(index[k]), first,
+                                           keep_text=k in text_keys, max_warnings=max_warnings)
             warnings += msgs
             floats[k] = values
             if k in text_keys:
@@ -443,7 +435,15 @@ class Book:
 
 
 def _is_encrypted(exc: BaseException) -> bool:
+    # calamine reports an encrypted package by its error text only (no class or field says it)
     return type(exc).__name__ == "PasswordError" or "encrypt" in str(exc).lower()
+
+
+def _brief(exc: BaseException) -> str:
+    """A parser's exception in one short line (its class when it has no words)."""
+    text = " ".join(str(exc).split())
+    text = text if len(text) <= 160 else text[:157] + "..."
+    return text or type(exc).__name__
 
 
 def _read_date1904(path: Path) -> bool:
@@ -455,129 +455,6 @@ def _read_date1904(path: Path) -> bool:
         return False
     m = re.search(r"<(?:\w+:)?workbookPr\b[^>]*\bdate1904\s*=\s*[\"'](1|true)[\"']", head)
     return m is not None
-
-
-# --------------------------------------------------------------------------------------- conversions
-
-def _show(v: Any) -> str:
-    if isinstance(v, (dt.date, dt.datetime, dt.time)):
-        return f"the date {v.isoformat()}" if not isinstance(v, dt.time) else f"the time {v.isoformat()}"
-    if isinstance(v, dt.timedelta):
-        return f"the duration {v}"
-    text = repr(v)
-    return text if len(text) <= 40 else text[:37] + "...'"
-
-
-def _capped(found: list[tuple[int, Any]], letter: str, first: int, cap: int, what: str) -> list[str]:
-    msgs = [f"{letter}{first + i}: {_show(v)} {what}" for i, v in found[:cap]]
-    if len(found) > cap:
-        msgs.append(f"... and {len(found) - cap:,} more cells in column {letter} {what}")
-    return msgs
-
-
-def _numbers(col: list[Any], letter: str, first: int, *, keep_text: bool,
-             max_warnings: int) -> tuple[np.ndarray, np.ndarray | None, list[str]]:
-    """Float view (and, with ``keep_text``, the object view) of one column, with warnings."""
-    n = len(col)
-    obj = np.empty(n, dtype=object)
-    obj[:] = col
-    kinds = _type_of(obj)
-    numeric = np.isin(kinds, _NUMERIC_TYPES)
-    out = np.full(n, np.nan)
-    if numeric.any():
-        out[numeric] = obj[numeric].astype(float)
-    odd = np.flatnonzero(~numeric & ~np.isin(kinds, _NONE_TYPE))
-    found: list[tuple[int, Any]] = []
-    text_at: list[int] = []
-    for i in odd.tolist():
-        v = col[i]
-        if isinstance(v, str):
-            if not v.strip():
-                continue
-            if _PLAIN_NUMBER.fullmatch(v):
-                out[i] = float(v)
-                continue
-            text_at.append(i)
-            if not keep_text:
-                found.append((i, v))
-        elif isinstance(v, (np.floating, np.integer)):
-            out[i] = float(v)
-        else:
-            found.append((i, v))
-    raw = None
-    if keep_text:
-        raw = np.empty(n, dtype=object)
-        raw[:] = None
-        ok = ~np.isnan(out)
-        raw[ok] = out[ok].tolist() if ok.any() else []
-        for i in text_at:
-            raw[i] = col[i]
-    return out, raw, _capped(found, letter, first, max_warnings, "read as missing")
-
-
-def _years(col: list[Any]) -> bool:
-    """Whether every filled cell is a whole number from 1000 to 2999 (a column of years)."""
-    seen = False
-    for v in col:
-        if _blank(v):
-            continue
-        if v.__class__ not in (int, float) or not float(v).is_integer() or not 1000 <= v <= 2999:
-            return False
-        seen = True
-    return seen
-
-
-def _dates(col: list[Any], letter: str, first: int, date1904: Any,
-           max_warnings: int) -> tuple[np.ndarray, list[str]]:
-    """The date column as datetime64[s] seconds (NaT where missing) and its warnings."""
-    n = len(col)
-    secs = np.zeros(n, dtype=np.int64)
-    valid = np.zeros(n, dtype=bool)
-    found: list[tuple[int, Any]] = []
-    serials = 0
-    as_years = _years(col)
-    origin = None
-    for i, v in enumerate(col):
-        cls = v.__class__
-        if cls is dt.date:
-            secs[i] = (v.toordinal() - _EPOCH_ORDINAL) * 86400
-        elif cls is dt.datetime:
-            secs[i] = ((v.toordinal() - _EPOCH_ORDINAL) * 86400 + v.hour * 3600 + v.minute * 60
-                       + v.second + (v.microsecond >= 500_000))
-        elif v is None or (cls is str and not v.strip()):
-            continue
-        elif cls is float or cls is int:
-            if as_years:
-                secs[i] = (dt.date(int(v), 1, 1).toordinal() - _EPOCH_ORDINAL) * 86400
-            else:
-                if origin is None:
-                    origin = _SERIAL_1904 if date1904() else _SERIAL_1900
-                try:
-                    stamp = origin + dt.timedelta(days=float(v))
-                except (OverflowError, ValueError):
-                    found.append((i, v))
-                    continue
-                secs[i] = round((stamp - dt.datetime(1970, 1, 1)).total_seconds())
-                serials += 1
-        elif cls is str:
-            try:
-                stamp = dt.datetime.fromisoformat(v.strip())
-            except ValueError:
-                found.append((i, v))
-                continue
-            secs[i] = round((stamp.replace(tzinfo=None) - dt.datetime(1970, 1, 1)).total_seconds())
-        else:
-            found.append((i, v))
-            continue
-        valid[i] = True
-    out = secs.astype("datetime64[s]")
-    out[~valid] = np.datetime64("NaT")
-    msgs = _capped(found, letter, first, max_warnings, "is not a date (read as missing)")
-    if serials:
-        msgs.insert(0, f"date column {letter}: {serials:,} cells hold numbers, not dates; read them as "
-                       f"serial dates of the {'1904' if date1904() else '1900'} date system (format the "
-                       f"cells as dates to make this explicit)")
-    return out, msgs
 
 
 # ------------------------------------------------------------------------------------------ shortcuts

@@ -14,26 +14,25 @@ Two parts, both free of threads' knowledge of file-system events:
   ends, so the check adds no delay), and it opens as a complete zip package. Only then does it hand the
   path on, once.
 
-A ``FileProbe`` is the only part that touches the disk, so the debouncer can be tested with synthetic
-events and a fake probe.
+The probe (``watcher.watch.probe.FileProbe``) is the only part that touches the disk; the debouncer is
+given one, so it can be tested with synthetic events and a fake probe.
 """
 from __future__ import annotations
 
 import logging
-import os
 import threading
 import time
-import zipfile
 from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Protocol
 
 __all__ = [
     "TOCSIN_TEMP_PREFIX",
     "TOCSIN_TEMP_SUFFIX",
     "WORKBOOK_SUFFIXES",
     "Debouncer",
-    "FileProbe",
+    "Probe",
     "is_workbook_name",
     "owner_file",
     "workbook_of_owner_file",
@@ -115,32 +114,14 @@ Stat = tuple[int, int, int]
 """(size, mtime in ns, inode): what must stay the same for a file to count as settled."""
 
 
-class FileProbe:
-    """The debouncer's eyes on the disk: owner file, size/mtime/inode, and zip completeness."""
+class Probe(Protocol):
+    """What the debouncer asks of the disk (``watcher.watch.probe.FileProbe``)."""
 
-    def owner(self, path: Path) -> Path | None:
-        """The owner file present beside ``path``, or None."""
-        return owner_file(path)
+    def owner(self, path: Path) -> Path | None: ...
 
-    def stat(self, path: Path) -> Stat | None:
-        """(size, mtime_ns, inode) of ``path``, or None when it does not exist (or cannot be read)."""
-        try:
-            st = os.stat(path)
-        except OSError:
-            return None
-        return (st.st_size, st.st_mtime_ns, st.st_ino)
+    def stat(self, path: Path) -> Stat | None: ...
 
-    def complete(self, path: Path) -> bool:
-        """True when ``path`` opens as a complete zip package holding ``[Content_Types].xml``.
-
-        Opening reads the end-of-central-directory record, which a truncated or half-written file lacks.
-        """
-        try:
-            with zipfile.ZipFile(path) as package:
-                package.getinfo("[Content_Types].xml")
-        except (zipfile.BadZipFile, KeyError, OSError, EOFError, ValueError):
-            return False
-        return True
+    def complete(self, path: Path) -> bool: ...
 
 
 @dataclass
@@ -166,8 +147,8 @@ class Debouncer:
         Called (on the debouncer's thread) once per settled path; must return quickly (queue the work).
     quiet : float
         Seconds without an event before a path is checked (``--quiet``; default 1).
-    probe : FileProbe, optional
-        What looks at the disk; tests pass a fake.
+    probe : Probe
+        What looks at the disk (``watcher.watch.probe.FileProbe``; tests pass a fake).
     on_waiting : callable(Path, Path), optional
         Called once when a path is held back because its owner file (second argument) exists.
     on_resumed : callable(Path), optional
@@ -188,7 +169,7 @@ class Debouncer:
         on_ready: Callable[[Path], None],
         *,
         quiet: float = 1.0,
-        probe: FileProbe | None = None,
+        probe: Probe,
         on_waiting: Callable[[Path, Path], None] | None = None,
         on_resumed: Callable[[Path], None] | None = None,
         on_rejected: Callable[[Path, str], None] | None = None,
@@ -200,7 +181,7 @@ class Debouncer:
             raise ValueError(f"`quiet` must be a number of seconds >= 0; got {quiet!r}")
         self._on_ready = on_ready
         self._quiet = float(quiet)
-        self._probe = probe if probe is not None else FileProbe()
+        self._probe = probe
         self._on_waiting = on_waiting or _noop
         self._on_resumed = on_resumed or _noop
         self._on_rejected = on_rejected or _noop

@@ -15,25 +15,26 @@ answers "unchanged" (its recorded fingerprint matches) without writing. A workbo
 tocsin computed comes back as "conflict" and is started again. One bad workbook never stops the watcher.
 
 At start every workbook already there goes through the same path with no quiet wait (the refresh skips
-those whose inputs did not change); ``--no-initial`` skips this. SIGTERM and Ctrl-C stop it: the write in
-flight is finished (or abandoned cleanly after a grace period) and the process exits 0.
+those whose inputs did not change), unless ``initial`` is off. :meth:`Watcher.stop` finishes the write in
+flight, or abandons it cleanly (nothing written, no temporary file left) within the stop time. The
+command line (``tocsin watch``, its signals and exit codes) is :mod:`watcher.cli.watch`; this module
+knows nothing of it.
 """
 from __future__ import annotations
 
-import argparse
 import os
-import signal
-import sys
 import threading
 from collections.abc import Callable, Iterator, Sequence
 from pathlib import Path
 from typing import Any
 
-from watcher.watch.debounce import Debouncer, FileProbe, is_workbook_name, workbook_of_owner_file
+from sheetfns.errors import InputError
+from watcher.watch.debounce import Debouncer, is_workbook_name, workbook_of_owner_file
 from watcher.watch.log import WatchLog
+from watcher.watch.probe import FileProbe
 from watcher.watch.worker import Outcome, RefreshWorker
 
-__all__ = ["Watcher", "add_watch_arguments", "main", "main_watch", "run_watch"]
+__all__ = ["FALLBACK_POLL", "Watcher"]
 
 FALLBACK_POLL = 2.0
 """Seconds between scans when the native observer cannot start and polling takes over."""
@@ -56,6 +57,8 @@ class _Forwarder:
 
 
 def _event_filter() -> list[type]:
+    # watchdog is imported when the watcher starts, not with this module (55-130 ms of imports,
+    # python -X importtime), so `tocsin --help` and the debouncer's tests do without it.
     from watchdog.events import (
         FileClosedEvent,
         FileCreatedEvent,
@@ -67,7 +70,10 @@ def _event_filter() -> list[type]:
 
 
 def _load_refresh() -> Callable[..., Any]:
-    from watcher.refresh.workbook import refresh_workbook  # lazy: pulls in the computation stack
+    # Imported when the watcher starts, not with this module: the refresh pulls in numpy, pandas and
+    # statsmodels (about 0.8 s of imports, python -X importtime), which a Watcher given its own refresh
+    # (the tests, the benchmark) does not need.
+    from watcher.refresh.workbook import refresh_workbook
     return refresh_workbook
 
 
@@ -97,6 +103,8 @@ class Watcher:
         Called after each refresh attempt is logged (tests and the benchmark use it).
     stop_grace : float
         Seconds the refresh in flight may take to finish when stopping, before it is abandoned.
+    write_grace : float
+        Seconds a refresh that has begun its write may take to finish it when stopping.
     """
 
     def __init__(
@@ -112,9 +120,8 @@ class Watcher:
         probe: FileProbe | None = None,
         on_outcome: Callable[[Outcome], None] | None = None,
         stop_grace: float = 2.0,
+        write_grace: float = 10.0,
     ) -> None:
-        from sheetfns.errors import InputError
-
         if not paths:
             raise InputError("`PATH` must name at least one folder or workbook to watch; got none")
         if poll is not None and not poll > 0:
@@ -140,6 +147,7 @@ class Watcher:
         self._log = log if log is not None else WatchLog()
         self._on_outcome = on_outcome
         self._stop_grace = stop_grace
+        self._write_grace = write_grace
         self._workers = workers
         self._probe = probe
         self._observer: Any = None
@@ -198,7 +206,7 @@ class Watcher:
             dropped += self._debouncer.stop()
         clean = True
         if self._worker is not None:
-            queued, clean = self._worker.stop(grace=self._stop_grace)
+            queued, clean = self._worker.stop(grace=self._stop_grace, write_grace=self._write_grace)
             dropped += [p for p in queued if p not in dropped]
         if self._observer is not None:
             self._observer.join(2.0)
@@ -239,7 +247,7 @@ class Watcher:
 
     # -- observer ------------------------------------------------------------------------------------
     def _start_observer(self) -> tuple[Any, str]:
-        from watchdog.observers import Observer
+        from watchdog.observers import Observer  # at start, not at import (see _event_filter)
         from watchdog.observers.polling import PollingObserver
 
         if self._poll is not None:
@@ -298,111 +306,3 @@ class Watcher:
 
     def _rejected(self, path: Path, reason: str) -> None:
         self._log.event("rejected", f"failed     {path}  {reason}", workbook=str(path), message=reason)
-
-
-# -- command line ------------------------------------------------------------------------------------
-def _seconds(flag: str, *, positive: bool) -> Callable[[str], float]:
-    def parse(text: str) -> float:
-        try:
-            value = float(text)
-        except ValueError:
-            value = float("nan")
-        if not (value > 0 if positive else value >= 0) or value == float("inf"):
-            raise argparse.ArgumentTypeError(
-                f"`{flag}` must be a number of seconds {'> 0' if positive else '>= 0'}; got '{text}'")
-        return value
-    return parse
-
-
-def add_watch_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentParser:
-    """Add ``PATH... [--poll SECONDS] [--quiet SECONDS] [--no-initial] [--log FILE]`` to ``parser``."""
-    parser.add_argument("paths", nargs="+", metavar="PATH",
-                        help="folders (watched recursively) and/or .xlsx/.xlsm workbooks")
-    parser.add_argument("--poll", type=_seconds("--poll", positive=True), metavar="SECONDS", default=None,
-                        help="scan for changes every SECONDS instead of using the system's file events "
-                             "(for network shares and synced folders, where those events do not arrive)")
-    parser.add_argument("--quiet", type=_seconds("--quiet", positive=False), metavar="SECONDS", default=1.0,
-                        help="refresh a workbook once it has been saved and left alone this long "
-                             "(default: 1)")
-    parser.add_argument("--no-initial", action="store_true",
-                        help="do not refresh, at start, the workbooks whose inputs changed while tocsin "
-                             "was not watching")
-    parser.add_argument("--log", metavar="FILE", default=None,
-                        help="also append one JSON object per event (refresh, waiting, start, stop) to FILE")
-    return parser
-
-
-def run_watch(args: argparse.Namespace) -> int:
-    """Run the watcher from parsed arguments (see ``add_watch_arguments``); returns the exit code."""
-    return main_watch(args.paths, poll=args.poll, quiet=args.quiet, initial=not args.no_initial, log=args.log)
-
-
-def main_watch(
-    paths: Sequence[str | os.PathLike[str]],
-    poll: float | None = None,
-    quiet: float = 1.0,
-    initial: bool = True,
-    log: str | os.PathLike[str] | None = None,
-    *,
-    refresh: Callable[..., Any] | None = None,
-    stop_event: threading.Event | None = None,
-) -> int:
-    """Watch until SIGTERM, Ctrl-C or ``stop_event``; return 0, or 2 for bad arguments, 1 if it cannot run.
-
-    Errors print ``error: ...`` on stderr, without a traceback.
-    """
-    from sheetfns.errors import InputError
-
-    stop = stop_event if stop_event is not None else threading.Event()
-    try:
-        watch_log = WatchLog(sys.stderr, log)
-    except OSError as exc:
-        print(f"error: {exc}", file=sys.stderr)
-        return 2
-    try:
-        watcher = Watcher(paths, refresh=refresh, quiet=quiet, poll=poll, initial=initial, log=watch_log)
-    except InputError as exc:
-        print(f"error: {exc}", file=sys.stderr)
-        watch_log.close()
-        return 2
-    reason = {"text": "stopped"}
-
-    def on_term(signum: int, _frame: object) -> None:
-        reason["text"] = f"stopped ({signal.Signals(signum).name})"
-        stop.set()
-
-    previous = None
-    in_main = threading.current_thread() is threading.main_thread()
-    if in_main and hasattr(signal, "SIGTERM"):
-        previous = signal.signal(signal.SIGTERM, on_term)
-    try:
-        try:
-            watcher.start()
-        except (ImportError, OSError) as exc:
-            print(f"error: the watcher cannot start: {exc}", file=sys.stderr)
-            return 1
-        while not stop.wait(0.2):
-            pass
-    except KeyboardInterrupt:
-        reason["text"] = "stopped (Ctrl-C)"
-    finally:
-        try:
-            watcher.stop(reason["text"])
-        except KeyboardInterrupt:  # a second Ctrl-C while stopping: stop harder, still exit 0
-            pass
-        if previous is not None:
-            signal.signal(signal.SIGTERM, previous)
-        watch_log.close()
-    return 0
-
-
-def main(argv: Sequence[str] | None = None) -> int:
-    """``python -m watcher.watch.service PATH... [options]``: the same as ``tocsin watch``."""
-    parser = add_watch_arguments(argparse.ArgumentParser(
-        prog="tocsin watch",
-        description="Keep tocsin's forecast sheets current: refresh each workbook whenever it is saved."))
-    return run_watch(parser.parse_args(argv))
-
-
-if __name__ == "__main__":
-    sys.exit(main())

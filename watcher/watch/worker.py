@@ -6,13 +6,18 @@ once more right after. Whatever the refresh does -- returns a report, raises ``P
 damaged package, or raises anything else -- the worker turns it into one ``Outcome`` and carries on.
 
 Stopping: the queue is dropped (those workbooks are picked up by the next start's initial refresh, since
-their inputs changed), the refresh in flight gets ``grace`` seconds to finish its write, and after that
-the ``progress`` callback the worker passed to the refresh raises ``RefreshAbandoned`` -- a
-``BaseException``, so a refresh that catches ``Exception`` per job does not mistake it for a failed job --
-and the refresh abandons cleanly (its temporary file is removed, the workbook is untouched).
+their inputs changed). The refresh in flight gets ``grace`` seconds to finish; a refresh that has begun
+its write (it said so by calling ``progress(..., final=True)``) gets ``write_grace`` seconds, so a write
+is finished rather than thrown away. After that the ``progress`` callback the worker passed to the
+refresh raises ``RefreshAbandoned`` -- a ``BaseException``, so a refresh that catches ``Exception`` per job
+does not mistake it for a failed job -- and a refresh that does not call it soon (a long computation, a
+long write) gets the same exception raised in its thread. Either way it abandons cleanly: the package
+writer removes its temporary file on any exception, and the workbook is untouched. So a stop takes at
+most ``grace`` (or ``write_grace``) + ``abandon_wait`` seconds and leaves nothing behind.
 """
 from __future__ import annotations
 
+import ctypes
 import logging
 import threading
 import time
@@ -22,8 +27,6 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
-
-from sheetfns.errors import PackageError
 
 __all__ = ["Outcome", "RefreshAbandoned", "RefreshWorker"]
 
@@ -121,6 +124,7 @@ class RefreshWorker:
         self._again: set[Path] = set()
         self._closing = False
         self._abandon = threading.Event()
+        self._writing: set[int] = set()  # idents of the threads whose refresh has begun its write
         self._threads: list[threading.Thread] = []
 
     def start(self) -> None:
@@ -146,17 +150,18 @@ class RefreshWorker:
         with self._cond:
             return bool(self._running or self._queue or self._again)
 
-    def stop(self, grace: float = 2.0, abandon_wait: float = 2.0) -> tuple[list[Path], bool]:
-        """Stop taking work; let the refresh in flight finish for ``grace`` s, then abandon it.
+    def stop(self, grace: float = 2.0, abandon_wait: float = 2.0,
+             write_grace: float = 10.0) -> tuple[list[Path], bool]:
+        """Stop taking work; let the refresh in flight finish (``grace`` s, ``write_grace`` s once it is
+        writing), then abandon it within ``abandon_wait`` s.
 
         Returns
         -------
         dropped : list of Path
             Queued paths that were not refreshed.
         clean : bool
-            False when a refresh was still running after ``grace + abandon_wait`` seconds (its thread
-            is a daemon and dies with the process; the write is atomic, so the workbook is either the
-            old or the new file).
+            False when a refresh was still running at the end (its thread is a daemon and dies with the
+            process; the write is atomic, so the workbook is either the old or the new file).
         """
         with self._cond:
             self._closing = True
@@ -164,20 +169,33 @@ class RefreshWorker:
             self._queue.clear()
             self._again.clear()
             self._cond.notify_all()
-        deadline = time.monotonic() + grace
+        start = time.monotonic()
         for thread in self._threads:
-            thread.join(max(deadline - time.monotonic(), 0.0))
+            while thread.is_alive():
+                limit = write_grace if thread.ident in self._writing else grace
+                if time.monotonic() - start >= limit:
+                    break
+                thread.join(0.05)
         if any(t.is_alive() for t in self._threads):
-            self._abandon.set()
-            deadline = time.monotonic() + abandon_wait
+            self._abandon.set()             # the next progress call raises RefreshAbandoned
+            deadline = time.monotonic() + abandon_wait / 2
+            for thread in self._threads:
+                thread.join(max(deadline - time.monotonic(), 0.0))
+            for thread in self._threads:    # no progress call came: raise it in the thread itself
+                if thread.is_alive():
+                    _raise_in(thread, RefreshAbandoned)
+            deadline = time.monotonic() + abandon_wait / 2
             for thread in self._threads:
                 thread.join(max(deadline - time.monotonic(), 0.0))
         return dropped, not any(t.is_alive() for t in self._threads)
 
-    def progress(self, *_args: object, **_kwargs: object) -> None:
-        """The ``progress`` callback handed to the refresh: raises ``RefreshAbandoned`` when stopping."""
+    def progress(self, *_args: object, final: bool = False, **_kwargs: object) -> None:
+        """The ``progress`` callback handed to the refresh: raises ``RefreshAbandoned`` when stopping.
+        ``final`` marks the last call before the write (the write then gets ``write_grace``)."""
         if self._abandon.is_set():
             raise RefreshAbandoned
+        if final:
+            self._writing.add(threading.get_ident())
 
     # -- threads -------------------------------------------------------------------------------------
     def _take(self) -> Path | None:
@@ -208,6 +226,7 @@ class RefreshWorker:
                 except Exception:
                     _logger.exception("reporting the refresh of %s failed", path)
             finally:
+                self._writing.discard(threading.get_ident())
                 with self._cond:
                     self._running.discard(path)
                     if path in self._again:
@@ -223,9 +242,22 @@ class RefreshWorker:
         except RefreshAbandoned:
             return Outcome(path, "abandoned", "the watcher is stopping; the refresh was abandoned and "
                                              "nothing was written", time.perf_counter() - start)
-        except PackageError as exc:
+        except ValueError as exc:  # every layer's errors (the writer's included) are ValueErrors
             return Outcome(path, "failed", str(exc), time.perf_counter() - start)
         except Exception as exc:
             return Outcome(path, "failed", f"unexpected error ({type(exc).__name__}: {exc})",
                            time.perf_counter() - start, traceback=traceback.format_exc())
         return Outcome.from_report(path, report, time.perf_counter() - start)
+
+
+def _raise_in(thread: threading.Thread, exc: type[BaseException]) -> bool:
+    """Raise ``exc`` in ``thread`` at its next Python instruction (CPython's PyThreadState_SetAsyncExc).
+    A thread blocked in a system call gets it when the call returns. Returns whether it was set."""
+    if thread.ident is None:
+        return False
+    ident = ctypes.c_ulong(thread.ident)
+    hit = ctypes.pythonapi.PyThreadState_SetAsyncExc(ident, ctypes.py_object(exc))
+    if hit > 1:  # never: one ident names one thread; undo rather than hit several
+        ctypes.pythonapi.PyThreadState_SetAsyncExc(ident, None)
+        return False
+    return hit == 1

@@ -1,0 +1,118 @@
+"""``tocsin watch``: the watcher's command line -- its arguments, its signals and its exit codes.
+
+The watcher itself (:class:`watcher.watch.service.Watcher`) knows nothing of the command line; this module
+parses the arguments, opens the log, turns SIGTERM and Ctrl-C into a clean stop (the write in flight
+finished or abandoned, nothing left behind; exit 0) and prints ``error: ...`` for bad arguments (exit 2)
+or a watcher that cannot start (exit 1).
+"""
+from __future__ import annotations
+
+import argparse
+import os
+import signal
+import sys
+import threading
+from collections.abc import Callable, Sequence
+from typing import Any
+
+from sheetfns.errors import InputError
+from watcher.watch.log import WatchLog
+from watcher.watch.service import Watcher
+
+__all__ = ["add_watch_arguments", "main_watch", "run_watch"]
+
+
+def _seconds(flag: str, *, positive: bool) -> Callable[[str], float]:
+    def parse(text: str) -> float:
+        try:
+            value = float(text)
+        except ValueError:
+            value = float("nan")
+        if not (value > 0 if positive else value >= 0) or value == float("inf"):
+            raise argparse.ArgumentTypeError(
+                f"`{flag}` must be a number of seconds {'> 0' if positive else '>= 0'}; got '{text}'")
+        return value
+    return parse
+
+
+def add_watch_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentParser:
+    """Add ``PATH... [--poll SECONDS] [--quiet SECONDS] [--no-initial] [--log FILE]`` to ``parser``."""
+    parser.add_argument("paths", nargs="+", metavar="PATH",
+                        help="folders (watched recursively) and/or .xlsx/.xlsm workbooks")
+    parser.add_argument("--poll", type=_seconds("--poll", positive=True), metavar="SECONDS", default=None,
+                        help="scan for changes every SECONDS instead of using the system's file events "
+                             "(for network shares and synced folders, where those events do not arrive)")
+    parser.add_argument("--quiet", type=_seconds("--quiet", positive=False), metavar="SECONDS", default=1.0,
+                        help="refresh a workbook once it has been saved and left alone this long "
+                             "(default: 1)")
+    parser.add_argument("--no-initial", action="store_true",
+                        help="do not refresh, at start, the workbooks whose inputs changed while tocsin "
+                             "was not watching")
+    parser.add_argument("--log", metavar="FILE", default=None,
+                        help="also append one JSON object per event (refresh, waiting, start, stop) to FILE")
+    return parser
+
+
+def run_watch(args: argparse.Namespace) -> int:
+    """Run the watcher from parsed arguments (see ``add_watch_arguments``); returns the exit code."""
+    return main_watch(args.paths, poll=args.poll, quiet=args.quiet, initial=not args.no_initial, log=args.log)
+
+
+def main_watch(
+    paths: Sequence[str | os.PathLike[str]],
+    poll: float | None = None,
+    quiet: float = 1.0,
+    initial: bool = True,
+    log: str | os.PathLike[str] | None = None,
+    *,
+    refresh: Callable[..., Any] | None = None,
+    stop_event: threading.Event | None = None,
+    write_grace: float = 10.0,
+) -> int:
+    """Watch until SIGTERM, Ctrl-C or ``stop_event``; return 0, or 2 for bad arguments, 1 if it cannot run.
+
+    Errors print ``error: ...`` on stderr, without a traceback.
+    """
+    stop = stop_event if stop_event is not None else threading.Event()
+    try:
+        watch_log = WatchLog(sys.stderr, log)
+    except OSError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return 2
+    try:
+        watcher = Watcher(paths, refresh=refresh, quiet=quiet, poll=poll, initial=initial, log=watch_log,
+                          write_grace=write_grace)
+    except InputError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        watch_log.close()
+        return 2
+    reason = {"text": "stopped"}
+
+    def on_term(signum: int, _frame: object) -> None:
+        reason["text"] = f"stopped ({signal.Signals(signum).name})"
+        stop.set()
+
+    previous = None
+    in_main = threading.current_thread() is threading.main_thread()
+    if in_main and hasattr(signal, "SIGTERM"):
+        previous = signal.signal(signal.SIGTERM, on_term)
+    try:
+        try:
+            watcher.start()
+        except (ImportError, OSError) as exc:
+            print(f"error: the watcher cannot start: {exc}", file=sys.stderr)
+            return 1
+        while not stop.wait(0.2):
+            pass
+    except KeyboardInterrupt:
+        reason["text"] = "stopped (Ctrl-C)"
+    finally:
+        try:
+            watcher.stop(reason["text"])
+        except KeyboardInterrupt:  # a second Ctrl-C while stopping: stop harder, still exit 0
+            pass
+        if previous is not None:
+            signal.signal(signal.SIGTERM, previous)
+        watch_log.close()
+    return 0
+

@@ -1,0 +1,154 @@
+"""Computing one job: resolve it against its data, run every method and the profile, and say what came out.
+
+* :func:`compute_job` turns a validated job and its columns into a :class:`JobOutcome` (the evaluation,
+  the profile table, the notes for the sheet); it raises the refresh's or the core's errors for data that
+  do not allow a forecast.
+* :func:`digest` fingerprints a job's inputs (its settings, its columns and the tocsin version), so an
+  unchanged job is neither recomputed nor rewritten.
+* :func:`summary` is what a report says of a job; it is kept in tocsin's state inside the package, so
+  an unchanged job reports it too.
+
+The modelling policy the spreadsheet functions share (weekday terms for daily data, the value series as
+a term only when it is not itself 0/1, the profile's period) comes from :mod:`sheetfns.scorecard`.
+"""
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from sheetfns import profile
+from sheetfns.events import flag
+from sheetfns.scorecard import (
+    METHOD_LABELS,
+    Settings,
+    evaluate,
+    model_values,
+    profile_period,
+    weekday_terms,
+)
+from watcher.refresh.jobs import Job, resolve
+from watcher.refresh.texts import VERSION
+
+__all__ = ["MAX_TABLE_ROWS", "JobOutcome", "compute_job", "digest", "event_text", "settings_for", "summary"]
+
+MAX_TABLE_ROWS = 1_048_575  # data rows below the row table's header (ECMA-376 Part 1, 18.3.1.73)
+
+
+@dataclass(frozen=True)
+class JobOutcome:
+    """A computed (or failed) job, ready to be laid out."""
+
+    job: Job | None  # None when the row did not validate
+    name: str
+    sheet: str
+    profile_sheet: str
+    fingerprint: str
+    error: str | None = None
+    evaluation: Any = None
+    data: Any = None
+    events: Any = None
+    values: Any = None
+    profile: Any = None
+    trend: Any = None
+    notes: tuple[str, ...] = ()
+    unchanged: bool = False  # inputs as recorded at the last refresh: not recomputed, sheets kept
+    blocked: bool = False  # no sheet of its own is written (a user's sheet, or the name is taken)
+
+
+def digest(job_settings: Any, data: Any) -> str:
+    """The fingerprint of a job's inputs: its settings (any JSON-able value), its data columns and
+    the tocsin version."""
+    h = hashlib.sha256()
+    h.update(VERSION.encode())
+    h.update(json.dumps(job_settings, default=str, sort_keys=True).encode())
+    if data is not None:
+        for key in sorted(data.columns):
+            h.update(key.encode())
+            h.update(np.ascontiguousarray(data.columns[key]).tobytes())
+        for key in sorted(data.raw):
+            h.update(("raw:" + key).encode())
+            h.update(repr(data.raw[key].tolist()).encode())
+        if data.dates is not None:
+            h.update(np.ascontiguousarray(data.dates.astype("datetime64[s]")).tobytes())
+    return h.hexdigest()[:32]
+
+
+def settings_for(job: Job) -> Settings:
+    """The model settings of a resolved job."""
+    return Settings(horizon=job.horizon, season=job.season or 1, cycle=job.cycle,
+                    harmonics=job.harmonics, lags=job.lags, refit=job.refit, cutoff=job.cutoff,
+                    cost_false_alarm=job.cost_false_alarm, cost_miss=job.cost_miss,
+                    weekday=weekday_terms(job.frequency))
+
+
+def compute_job(job: Job, data: Any) -> JobOutcome:
+    """Resolve ``job`` against its data and run every method. Raises a ValueError (the refresh's
+    JobError, or the core's errors) for data that do not allow a forecast."""
+    job = resolve(job, data)
+    raw = data.raw[job.value_column] if job.text_columns else data.columns[job.value_column]
+    events = flag(raw, job.criterion, job.min_run)
+    values = data.columns.get(job.value_column)
+    shown = raw if job.text_columns else values  # the row table shows the text of a text criterion
+    predictors = {data.names.get(p, p): data.columns[p] for p in job.predictors} or None
+    known = {data.names.get(p, p): data.columns[p] for p in job.known_ahead} or None
+    notes = list(data.warnings)
+    # Without dates the reader cannot tell future rows (trailing rows are blank), so the periods
+    # after the last observed row are added here: the next-period forecasts need them.
+    pad = min(job.horizon, MAX_TABLE_ROWS - events.size) if data.dates is None and events.size and \
+        not np.isnan(events[-1]) else 0
+    if pad > 0:
+        def more(a: Any) -> Any:
+            fill = np.full(pad, None if a.dtype == object else np.nan, dtype=a.dtype)
+            return np.concatenate([a, fill])
+
+        events, raw = more(events), more(np.asarray(raw))
+        values = more(values) if values is not None else None
+        shown = more(np.asarray(shown)) if shown is not None else None
+        predictors = {k: more(v) for k, v in predictors.items()} if predictors else None
+        known = {k: more(v) for k, v in known.items()} if known else None
+        first = events.size - pad + 1
+        rows = f"rows {first}-{events.size}: the periods" if pad > 1 else f"row {first}: the period"
+        notes.append(f"{rows} after the last data row (the job has no date column)")
+    ev = evaluate(events, train_size=job.train_size, settings=settings_for(job), dates=data.dates,
+                  values=model_values(values), predictors=predictors, known_ahead=known)
+    table = trend = None
+    if data.dates is not None:
+        table = profile.rate_table(data.dates, events, by=profile_period(job.frequency))
+        try:
+            trend = profile.seasonal_trend(table, degree=2)
+        except ValueError:      # too few periods for a trend: the table goes without one
+            trend = None
+    return JobOutcome(job=job, name=job.name, sheet=job.output_sheet, profile_sheet=job.profile_sheet,
+                      fingerprint="", evaluation=ev, data=data, events=events,
+                      values=shown if shown is not None else events, profile=table, trend=trend,
+                      notes=tuple(notes))
+
+
+def event_text(job: Job, data: Any) -> str:
+    """The event in words for the sheets: 'Passengers >=1150, held 2 periods in a row'."""
+    name = data.names.get(job.value_column, job.value_column) if data is not None else job.value_column
+    run = f", held {job.min_run} periods in a row" if job.min_run > 1 else ""
+    return f"{name} {job.event}{run}"
+
+
+def summary(o: JobOutcome) -> dict[str, Any]:
+    """What the report says of a job, recorded in the state so an unchanged job reports it too."""
+    if o.error is not None:
+        return {"error": o.error}
+    ev = o.evaluation
+    best = METHOD_LABELS.get(ev.best) if ev.best else None
+    out: dict[str, Any] = {"verdict": ev.verdict, "best_method": best, "next_period": None,
+                           "next_probability": None}
+    if ev.last_observed + 1 < ev.n:
+        d = o.data.dates
+        out["next_period"] = (str(d[ev.last_observed + 1].astype("datetime64[D]")) if d is not None
+                              else f"row {ev.last_observed + 2}")
+        if ev.best is not None:
+            p = ev.headline()[ev.best][1]
+            out["next_probability"] = None if math.isnan(p) else p
+    return out

@@ -1,0 +1,44 @@
+"""Whether a saved workbook is ready to be refreshed: the debouncer's eyes on the disk.
+
+A workbook is ready when no owner file says a person has it open, its size, mtime and inode stay the
+same between two looks (the debouncer takes them), and it opens as a complete zip package. This is the
+only part of the watcher's intake that touches the disk, so the debouncer (timing only) can be tested
+with a fake probe.
+"""
+from __future__ import annotations
+
+import os
+import zipfile
+from pathlib import Path
+
+from watcher.watch.debounce import Stat, owner_file  # the owner-file rule; watcher.xlsx.names once there
+
+__all__ = ["FileProbe"]
+
+
+class FileProbe:
+    """The debouncer's eyes on the disk: owner file, size/mtime/inode, and zip completeness."""
+
+    def owner(self, path: Path) -> Path | None:
+        """The owner file present beside ``path``, or None."""
+        return owner_file(path)
+
+    def stat(self, path: Path) -> Stat | None:
+        """(size, mtime_ns, inode) of ``path``, or None when it does not exist (or cannot be read)."""
+        try:
+            st = os.stat(path)
+        except OSError:
+            return None
+        return (st.st_size, st.st_mtime_ns, st.st_ino)
+
+    def complete(self, path: Path) -> bool:
+        """True when ``path`` opens as a complete zip package holding ``[Content_Types].xml``.
+
+        Opening reads the end-of-central-directory record, which a truncated or half-written file lacks.
+        """
+        try:
+            with zipfile.ZipFile(path) as package:
+                package.getinfo("[Content_Types].xml")
+        except (zipfile.BadZipFile, KeyError, OSError, EOFError, ValueError):
+            return False
+        return True
