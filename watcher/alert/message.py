@@ -30,7 +30,7 @@ from typing import Any
 
 from sheetfns.scorecard import METHOD_LABELS
 from watcher.alert.state import CLEARED, RAISED, Reading
-from watcher.refresh.layout import CAUTION
+from watcher.refresh.texts import CAUTION
 
 __all__ = ["Alert", "build_alert"]
 
