@@ -41,6 +41,7 @@ PIVOT_TOL = 1e-7
 #: Relative cut-off of singular values in the SVD fallback (numpy's pinv / statsmodels' OLS default).
 RCOND = 1e-15
 _CHUNK = 1024   # windows per batched solve (bounds memory at _CHUNK * k * k floats)
+_DENSE = 4      # at most this many rows per window on average: cumulate row by row
 
 
 @dataclass(frozen=True)
@@ -130,9 +131,29 @@ class Accumulator:
         A = np.empty((w, k, k))
         g = np.empty((w, k))
         yy = np.empty(w)
-        for i, m in enumerate(windows):
-            self.advance(int(m))
-            A[i], g[i], yy[i] = self.A, self.g, self.yy
+        self.advance(int(windows[0]))
+        lo, hi = self.m, int(windows[-1])
+        if 0 < hi - lo <= _DENSE * w:
+            # windows close together (a refit at every origin): the rows' own cross products,
+            # cumulated, give every window at once
+            xb = self.xe[lo:hi] - self.shift_x
+            yb = self.ye[lo:hi] - self.shift_y
+            cum_a = np.cumsum(xb[:, :, None] * xb[:, None, :], axis=0)
+            cum_g = np.cumsum(xb * yb[:, None], axis=0)
+            cum_y = np.cumsum(yb * yb)
+            at = windows - lo - 1
+            inside = at >= 0
+            A[:] = self.A
+            g[:] = self.g
+            yy[:] = self.yy
+            A[inside] += cum_a[at[inside]]
+            g[inside] += cum_g[at[inside]]
+            yy[inside] += cum_y[at[inside]]
+            self.A, self.g, self.yy, self.m = A[-1].copy(), g[-1].copy(), float(yy[-1]), hi
+        else:
+            for i, m in enumerate(windows):
+                self.advance(int(m))
+                A[i], g[i], yy[i] = self.A, self.g, self.yy
         return _solve(A, g, yy, windows.astype(float), self)
 
 

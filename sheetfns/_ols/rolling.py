@@ -100,13 +100,16 @@ def run(q: np.ndarray, design: Design, *, last: int, horizon: int, train_size: i
     else:
         target_window = np.empty(0, dtype=np.intp)
     fut = np.arange(last + 1, min(last + horizon, n - 1) + 1)
+    if fut.size and usable.size <= k:
+        notes.append(f"future {rows_text(int(fut[0]), int(fut[-1]), 'has/have')} no forecast: "
+                     f"{usable.size} usable rows cannot fit {k} terms with a residual left over")
+        fut = fut[:0]
     wanted = [target_window]
     if fixed_window is not None:
         wanted.append(np.array([fixed_window]))
     if fut.size:
         wanted.append(np.array([usable.size]))
-    windows = np.unique(np.concatenate(wanted)).astype(np.intp)
-    windows = windows[windows > 0]
+    windows = np.unique(np.concatenate(wanted)).astype(np.intp)   # each holds more than k rows
     table_window = int(target_window[-1]) if targets.size else fixed_window
     mean, scale, dof = (np.full(n, np.nan) for _ in range(3))
     fits: dict[int, OLSFit] = {}
