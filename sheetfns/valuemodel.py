@@ -254,15 +254,11 @@ def forecast(values: Any, criterion: str | Criterion, *, predictors: Mapping[str
     if weekday and dates is None:
         raise InputError("`weekday` needs `dates`; got weekday=True with dates=None")
     every = parse_refit(refit)
-    why = _not_applicable(crit, run_length)
-    if why is not None:
-        try:
-            n = len(values)
-        except TypeError as exc:
-            raise InputError(f"`values` must be a 1-D sequence; got {type(values).__name__}") from exc
-        return _absent(n, why)
     x = _numeric(values)
     n = x.size
+    why = _not_applicable(crit, run_length)
+    if why is not None:
+        return _absent(n, why)
     if n < 2:
         raise InputError(f"`values` must have at least 2 rows to forecast from its past; got {n}")
     seen = x[~np.isnan(x)]

@@ -310,6 +310,7 @@ def test_perfect_fit_gives_zero_or_one():
     ([0, 1, None, 1, 0], ">0.5", 1, "only 0 and 1"),
     ([True, False, True, True], "=TRUE", 1, "equality"),
     ([True, False, True, True], ">=1", 1, "only 0 and 1"),
+    ([["ok"], ["alarm"], [None]], "<>ok", 1, "compares text"),     # a spreadsheet column range
 ])
 def test_absent_with_a_note(values, rule, min_run, needle):
     res = valuemodel.forecast(values, rule, min_run=min_run)
@@ -413,6 +414,11 @@ def test_bad_input(kwargs, needle):
     with pytest.raises(InputError) as err:
         valuemodel.forecast(values, criterion, **kwargs)
     assert needle in str(err.value)
+
+
+def test_quantity_of_a_text_rule_is_an_error():
+    with pytest.raises(InputError, match="compares text"):
+        valuemodel.quantity(["ok", "alarm"], "=alarm")
 
 
 @pytest.mark.parametrize("rule", ["", "above 3", "rise<2", "fall%", 3.5])
