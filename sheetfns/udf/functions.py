@@ -1,17 +1,15 @@
-"""tocsin's spreadsheet functions: the core as formulas next to the data (xlwings user-defined functions).
+"""tocsin's spreadsheet functions, defined once as plain functions.
 
-Point the xlwings add-in's "UDF Modules" setting at ``sheetfns.udf`` and import the functions; then
-``=EVENT_FLAG(B2:B2930, ">=1150")`` spills a 0/1 column next to the passengers. Each function is a
-thin wrapper, in four steps: coerce the ranges (``sheetfns.udf.coerce``), call the core module, map NaN to
-a blank cell, return a column of the input's height or a small table with a header row. Bad input
-never raises into the spreadsheet: the cell shows ``#tocsin: `` and what to fix.
+Each function takes what a spreadsheet hands over (a range as a list of rows, one cell as a scalar, a
+blank as None or empty text) and returns what a spreadsheet shows (a column of the input's height or a
+small table, as a list of rows; None for a blank), in four steps: coerce the ranges
+(:mod:`sheetfns.udf.coerce`), call the core module, map NaN to a blank, return. Bad input never raises:
+the cell shows ``#tocsin: `` and what to fix.
 
-This is the only module of tocsin that imports xlwings. Off Windows xlwings' ``func`` / ``arg`` /
-``ret`` decorators register nothing, so the tests call these functions as plain functions, exactly as
-the add-in does. The coercion is our own code, not xlwings' converters (which do nothing off Windows);
-the one xlwings option used is ``ndim=2`` on range arguments, so that on the desktop a range always
-arrives as a list of rows and a row range can be told from a column. Native dynamic arrays (Microsoft
-365 / Excel 2021 and later) spill a returned list of rows without any return decorator.
+The decorator :func:`~sheetfns.udf.registry.sheet_function` enters each function, with one line of
+help per argument, in the one function list (:data:`~sheetfns.udf.registry.FUNCTIONS`) that the
+faces are built from: the xlwings face (:mod:`sheetfns.udf.excel`) and the LibreOffice Calc add-in
+(:mod:`sheetfns.udf.calc`). This module imports neither xlwings nor anything of LibreOffice.
 
 Type hints are ``Any`` aliases on purpose: xlwings turns an argument's type hint into a converter, and
 only the plain value converter does what our coercion expects.
@@ -22,47 +20,37 @@ from typing import Any
 
 import numpy as np
 
-try:
-    import xlwings as xw
-except ImportError as _exc:  # pragma: no cover - exercised in a subprocess test
-    raise ImportError(
-        "sheetfns.udf (the spreadsheet functions) needs xlwings, which is not installed; install it "
-        "with: pip install 'tocsin[excel]'. The rest of tocsin (sheetfns.events, ..., the watcher) "
-        "works without it.") from _exc
-
 from sheetfns import benchmarks, events, logistic, partition, profile, scores
 from sheetfns.checks import same_length
 from sheetfns.errors import InputError
 from sheetfns.udf import coerce as c
+from sheetfns.udf.registry import cells, sheet_function, value
 
 Cells = Any   # a range: a list of rows, a flat list (a column) or a single value
 Value = Any   # a single cell or a literal typed into the formula; None when blank or omitted
 Spill = Any   # a list of rows that spills, a single value, or a '#tocsin: ...' error text
-
-CATEGORY = "tocsin"
 
 __all__ = [
     "EVENT_FLAG", "EVENT_NAIVE", "EVENT_MAJORITY", "EVENT_SHARE", "EVENT_LOGIT", "EVENT_LOGIT_COEFS",
     "EVENT_SCORES", "EVENT_CONFUSION", "EVENT_BRIER", "EVENT_RATE_TABLE", "EVENT_CUTOFF", "EVENT_COMPARE",
 ]
 
-# One-line descriptions for the function wizard (Excel shows at most 255 characters of each).
-_ACTUAL = "What happened: a column of 1 (event), 0 (no event) or blank, e.g. the output of EVENT_FLAG."
-_FORECAST = "The 0/1 forecast for the same rows, e.g. the output of EVENT_NAIVE or EVENT_MAJORITY."
-_EVENTS = "The event column: 1 (event), 0 (no event) or blank; blanks at the end are future periods."
-_HORIZON = "Optional: periods ahead, the forecast for row t is made at row t - horizon (default 1)."
-_TRAIN_ROWS = ("Optional: the first train_rows rows are the training period and later forecasts are made "
-               "from its end; blank = roll forward every period (default).")
-_WINDOW = "Optional: how many of the latest observed periods count (default blank: all of them)."
-_PROBABILITY = "Optional: the forecast probability for the same rows (0 to 1), e.g. from EVENT_LOGIT."
+# One-line help shared by several arguments (a wizard shows at most 255 characters of each).
+_ACTUAL = cells("What happened: a column of 1 (event), 0 (no event) or blank, e.g. the output of EVENT_FLAG.")
+_FORECAST = cells("The 0/1 forecast for the same rows, e.g. the output of EVENT_NAIVE or EVENT_MAJORITY.")
+_EVENTS = cells("The event column: 1 (event), 0 (no event) or blank; blanks at the end are future periods.")
+_HORIZON = value("Optional: periods ahead, the forecast for row t is made at row t - horizon (default 1).")
+_TRAIN_ROWS = value("Optional: the first train_rows rows are the training period and later forecasts are "
+                    "made from its end; blank = roll forward every period (default).")
+_WINDOW = value("Optional: how many of the latest observed periods count (default blank: all of them).")
+_PROBABILITY = cells("Optional: the forecast probability for the same rows (0 to 1), e.g. from EVENT_LOGIT.")
 
 
 # ------------------------------------------------------------------------------------------- events
-@xw.func(category=CATEGORY)
-@xw.arg("values", ndim=2, doc="The data column: numbers, TRUE/FALSE or text, one cell per period.")
-@xw.arg("criterion", doc='The event rule as text: ">=1150", "<0", "=alarm", "rise", "fall>2", "rise%>=5".')
-@xw.arg("min_run", doc="Optional: the rule must hold this many periods in a row (default 1).")
-@c.guarded
+@sheet_function(
+    values=cells("The data column: numbers, TRUE/FALSE or text, one cell per period."),
+    criterion=value('The event rule as text: ">=1150", "<0", "=alarm", "rise", "fall>2", "rise%>=5".'),
+    min_run=value("Optional: the rule must hold this many periods in a row (default 1)."))
 def EVENT_FLAG(values: Cells, criterion: Value, min_run: Value = 1) -> Spill:
     """Turn a column into events: 1 where the rule holds, 0 where it does not, blank where unknown.
 
@@ -74,13 +62,10 @@ def EVENT_FLAG(values: Cells, criterion: Value, min_run: Value = 1) -> Spill:
 
 
 # --------------------------------------------------------------------------------------- benchmarks
-@xw.func(category=CATEGORY)
-@xw.arg("events", ndim=2, doc=_EVENTS)
-@xw.arg("horizon", doc=_HORIZON)
-@xw.arg("season", doc="Optional: the seasonal period, e.g. 7 for daily data with a weekly pattern "
-                      "(default 1).")
-@xw.arg("train_rows", doc=_TRAIN_ROWS)
-@c.guarded
+@sheet_function(
+    events=_EVENTS, horizon=_HORIZON,
+    season=value("Optional: the seasonal period, e.g. 7 for daily data with a weekly pattern (default 1)."),
+    train_rows=_TRAIN_ROWS)
 def EVENT_NAIVE(events: Cells, horizon: Value = 1, season: Value = 1, train_rows: Value = None) -> Spill:
     """Naive forecast: what happened last time (season 1) or one season ago (season m), blanks skipped.
 
@@ -98,12 +83,7 @@ def _majority_args(window: Value, train_rows: Value, horizon: Value) -> dict[str
             "horizon": c.option_int(horizon, "horizon", 1, minimum=1)}
 
 
-@xw.func(category=CATEGORY)
-@xw.arg("events", ndim=2, doc=_EVENTS)
-@xw.arg("window", doc=_WINDOW)
-@xw.arg("train_rows", doc=_TRAIN_ROWS)
-@xw.arg("horizon", doc=_HORIZON)
-@c.guarded
+@sheet_function(events=_EVENTS, window=_WINDOW, train_rows=_TRAIN_ROWS, horizon=_HORIZON)
 def EVENT_MAJORITY(events: Cells, window: Value = None, train_rows: Value = None,
                    horizon: Value = 1) -> Spill:
     """Majority vote: 1 when more than half of the periods so far (or in the window) had the event.
@@ -113,12 +93,7 @@ def EVENT_MAJORITY(events: Cells, window: Value = None, train_rows: Value = None
     return c.to_column(benchmarks.majority_vote(y, **_majority_args(window, train_rows, horizon)))
 
 
-@xw.func(category=CATEGORY)
-@xw.arg("events", ndim=2, doc=_EVENTS)
-@xw.arg("window", doc=_WINDOW)
-@xw.arg("train_rows", doc=_TRAIN_ROWS)
-@xw.arg("horizon", doc=_HORIZON)
-@c.guarded
+@sheet_function(events=_EVENTS, window=_WINDOW, train_rows=_TRAIN_ROWS, horizon=_HORIZON)
 def EVENT_SHARE(events: Cells, window: Value = None, train_rows: Value = None,
                 horizon: Value = 1) -> Spill:
     """Share of periods so far (or in the window) that had the event: the majority method's probability.
@@ -150,29 +125,23 @@ def _logit(events: Cells, predictors: Cells, train_rows: Value, horizon: Value, 
         harmonics=c.option_int(harmonics, "harmonics", 2, minimum=0))
 
 
-def _logit_args(f: Any) -> Any:
-    """The argument descriptions shared by EVENT_LOGIT and EVENT_LOGIT_COEFS."""
-    for name, doc in reversed([
-        ("events", _EVENTS),
-        ("predictors", "Optional: columns of other data for the same rows, read `horizon` periods "
-                       "earlier; a header row on top names them."),
-        ("train_rows", _TRAIN_ROWS),
-        ("horizon", _HORIZON),
-        ("lags", "Optional: how many past events enter the model (default 1; 0 for none)."),
-        ("cycle", "Optional: the length of a yearly (or other) cycle in rows, e.g. 365.25 for daily "
-                  "data; blank = no cycle."),
-        ("harmonics", "Optional: sine/cosine pairs describing the cycle (default 2)."),
-        ("dates", "Optional: the date column; the cycle then follows the calendar, and daily data get "
-                  "weekday terms, as on the watcher's forecast sheet."),
-    ]):
-        f = xw.arg(name, ndim=2, doc=doc)(f) if name in ("events", "predictors", "dates") else \
-            xw.arg(name, doc=doc)(f)
-    return f
+_LOGIT_ARGS = {
+    "events": _EVENTS,
+    "predictors": cells("Optional: columns of other data for the same rows, read `horizon` periods "
+                        "earlier; a header row on top names them."),
+    "train_rows": _TRAIN_ROWS,
+    "horizon": _HORIZON,
+    "lags": value("Optional: how many past events enter the model (default 1; 0 for none).",
+                  zero_is_blank=False),
+    "cycle": value("Optional: the length of a yearly (or other) cycle in rows, e.g. 365.25 for daily "
+                   "data; blank = no cycle."),
+    "harmonics": value("Optional: sine/cosine pairs describing the cycle (default 2).", zero_is_blank=False),
+    "dates": cells("Optional: the date column; the cycle then follows the calendar, and daily data get "
+                   "weekday terms, as on the watcher's forecast sheet."),
+}
 
 
-@xw.func(category=CATEGORY, call_in_wizard=False)
-@_logit_args
-@c.guarded
+@sheet_function(call_in_wizard=False, **_LOGIT_ARGS)
 def EVENT_LOGIT(events: Cells, predictors: Cells = None, train_rows: Value = None, horizon: Value = 1,
                 lags: Value = 1, cycle: Value = None, harmonics: Value = 2, dates: Cells = None) -> Spill:
     """Probability of the event from a logistic regression on past events, predictors and a cycle.
@@ -185,9 +154,7 @@ def EVENT_LOGIT(events: Cells, predictors: Cells = None, train_rows: Value = Non
     return c.to_column(fc.prob)
 
 
-@xw.func(category=CATEGORY, call_in_wizard=False)
-@_logit_args
-@c.guarded
+@sheet_function(call_in_wizard=False, **_LOGIT_ARGS)
 def EVENT_LOGIT_COEFS(events: Cells, predictors: Cells = None, train_rows: Value = None,
                       horizon: Value = 1, lags: Value = 1, cycle: Value = None, harmonics: Value = 2,
                       dates: Cells = None) -> Spill:
@@ -203,11 +170,10 @@ def EVENT_LOGIT_COEFS(events: Cells, predictors: Cells = None, train_rows: Value
 
 
 # ------------------------------------------------------------------------------------------- profile
-@xw.func(category=CATEGORY)
-@xw.arg("dates", ndim=2, doc="The date column, one date per row.")
-@xw.arg("events", ndim=2, doc="The event column for the same rows: 1, 0 or blank (blanks are left out).")
-@xw.arg("by", doc='Optional: rows of the table, "month" (default), "week", "weekday" or "quarter".')
-@c.guarded
+@sheet_function(
+    dates=cells("The date column, one date per row."),
+    events=cells("The event column for the same rows: 1, 0 or blank (blanks are left out)."),
+    by=value('Optional: rows of the table, "month" (default), "week", "weekday" or "quarter".'))
 def EVENT_RATE_TABLE(dates: Cells, events: Cells, by: Value = "month") -> Spill:
     """Share of periods with the event, by month (or week, weekday, quarter) down and year across.
 
@@ -229,14 +195,10 @@ def _pair(actual: Cells, forecast: Cells, forecast_name: str = "forecast"
     return a, f
 
 
-@xw.func(category=CATEGORY)
-@xw.arg("actual", ndim=2, doc=_ACTUAL)
-@xw.arg("forecast", ndim=2, doc=_FORECAST)
-@xw.arg("probability", ndim=2, doc=_PROBABILITY)
-@xw.arg("reference", ndim=2, doc="Optional: the reference of brier_skill, a probability or a column of "
-                                 "them, e.g. EVENT_SHARE over the training rows (default: the share of "
-                                 "events in the scored rows).")
-@c.guarded
+@sheet_function(
+    actual=_ACTUAL, forecast=_FORECAST, probability=_PROBABILITY,
+    reference=cells("Optional: the reference of brier_skill, a probability or a column of them, e.g. "
+                    "EVENT_SHARE over the training rows (default: the share of events in the scored rows)."))
 def EVENT_SCORES(actual: Cells, forecast: Cells, probability: Cells = None, reference: Cells = None
                  ) -> Spill:
     """Score a 0/1 forecast (and optionally a probability) against what happened; blank rows skipped.
@@ -262,10 +224,7 @@ def EVENT_SCORES(actual: Cells, forecast: Cells, probability: Cells = None, refe
     return c.to_table(["measure", "value"], table.items())
 
 
-@xw.func(category=CATEGORY)
-@xw.arg("actual", ndim=2, doc=_ACTUAL)
-@xw.arg("forecast", ndim=2, doc=_FORECAST)
-@c.guarded
+@sheet_function(actual=_ACTUAL, forecast=_FORECAST)
 def EVENT_CONFUSION(actual: Cells, forecast: Cells) -> Spill:
     """Count hits, false alarms, misses and correct negatives of a 0/1 forecast; blank rows skipped.
 
@@ -275,10 +234,7 @@ def EVENT_CONFUSION(actual: Cells, forecast: Cells) -> Spill:
                       [["event", t.hits, t.false_alarms], ["no event", t.misses, t.correct_negatives]])
 
 
-@xw.func(category=CATEGORY)
-@xw.arg("actual", ndim=2, doc=_ACTUAL)
-@xw.arg("probability", ndim=2, doc="The forecast probability for the same rows (0 to 1).")
-@c.guarded
+@sheet_function(actual=_ACTUAL, probability=cells("The forecast probability for the same rows (0 to 1)."))
 def EVENT_BRIER(actual: Cells, probability: Cells) -> Spill:
     """Brier score of a probability forecast and its parts: reliability, resolution, uncertainty.
 
@@ -291,10 +247,9 @@ def EVENT_BRIER(actual: Cells, probability: Cells) -> Spill:
                       [[k, d[k]] for k in ("brier", "reliability", "resolution", "uncertainty", "n")])
 
 
-@xw.func(category=CATEGORY)
-@xw.arg("cost_false_alarm", doc="The cost of one false alarm (acting when nothing happens), >= 0.")
-@xw.arg("cost_miss", doc="The cost of one miss (not acting when the event happens), >= 0.")
-@c.guarded
+@sheet_function(
+    cost_false_alarm=value("The cost of one false alarm (acting when nothing happens), >= 0."),
+    cost_miss=value("The cost of one miss (not acting when the event happens), >= 0."))
 def EVENT_CUTOFF(cost_false_alarm: Value, cost_miss: Value) -> Spill:
     """The probability above which warning costs less on average: cost_false_alarm / (sum of both).
 
@@ -304,11 +259,8 @@ def EVENT_CUTOFF(cost_false_alarm: Value, cost_miss: Value) -> Spill:
     return c.cell(scores.cost_cutoff(cfa, cmiss))
 
 
-@xw.func(category=CATEGORY)
-@xw.arg("actual", ndim=2, doc=_ACTUAL)
-@xw.arg("forecast_a", ndim=2, doc="The first 0/1 forecast for the same rows.")
-@xw.arg("forecast_b", ndim=2, doc="The second 0/1 forecast for the same rows.")
-@c.guarded
+@sheet_function(actual=_ACTUAL, forecast_a=cells("The first 0/1 forecast for the same rows."),
+                forecast_b=cells("The second 0/1 forecast for the same rows."))
 def EVENT_COMPARE(actual: Cells, forecast_a: Cells, forecast_b: Cells) -> Spill:
     """McNemar's test: are two 0/1 forecasts right equally often? A small p_value says they differ.
 
