@@ -109,14 +109,16 @@ class Calc:
         if proc.returncode != 0:
             raise RuntimeError(f"unopkg add failed: {proc.stdout}{proc.stderr}")
 
-    def run(self, jobs: list[dict], *, timeout: float = 600) -> dict:
-        """Run the driver's jobs in one soffice; return {"start_seconds", "results": [...]}."""
+    def run(self, jobs: list[dict], *, timeout: float = 600, pythonpath: str | None = None) -> dict:
+        """Run the driver's jobs in one soffice; return {"start_seconds", "results": [...]}.
+        ``pythonpath``: TOCSIN_PYTHONPATH for LibreOffice (default: :func:`tocsin_pythonpath`)."""
         spec = self.folder / "jobs.json"
         result = self.folder / "result.json"
         spec.write_text(json.dumps({"soffice": self.soffice, "env": self.env_args, "jobs": jobs}),
                         encoding="utf-8")
         result.unlink(missing_ok=True)
-        env = {**os.environ, "TOCSIN_PYTHONPATH": tocsin_pythonpath(), "PATH": office_path()}
+        env = {**os.environ, "PATH": office_path(),
+               "TOCSIN_PYTHONPATH": tocsin_pythonpath() if pythonpath is None else pythonpath}
         env.pop("PYTHONPATH", None)       # the venv's path must not leak into the system Python
         env.pop("PYTHONHOME", None)
         proc = subprocess.run([self.python, str(DRIVER), str(spec), str(result)], capture_output=True,

@@ -15,6 +15,7 @@ LibreOffice runs this file in its own Python (on Debian and Ubuntu the system Py
 
 The service name is ``tocsin``: a file saved by LibreOffice stores ``TOCSIN.EVENT_FLAG(...)``.
 """
+import importlib
 import json
 import os
 import sys
@@ -41,8 +42,8 @@ def _face():
         for entry in reversed(os.environ.get("TOCSIN_PYTHONPATH", "").split(os.pathsep)):
             if entry and entry not in sys.path:
                 sys.path.insert(0, entry)
-        try:
-            from sheetfns.udf.calc import face
+        try:   # not through pyuno's import hook, whose ImportError mixes in UNO type names
+            face = importlib.import_module("sheetfns.udf.calc.face")
         except Exception as exc:  # noqa: BLE001 - any failure becomes the cells' message
             version = "{}.{}".format(*sys.version_info[:2])
             _state["error"] = (
