@@ -38,6 +38,8 @@ from pathlib import Path
 import calc_headless  # tests/calc_headless.py
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from sheetfns.udf import excel
 from sheetfns.udf import functions as F
@@ -129,6 +131,28 @@ def test_calc_face_messages():
     assert "takes 2 arguments" in face.call("EVENT_CUTOFF", (1.0,))[0][0]
     assert face.call("EVENT_CUTOFF", (1.0, None)) == \
         (("#tocsin: `cost_miss` is required: the cost of one miss, a number; got a blank",),)
+
+
+# What Calc can pass: None (left out), a number (always a float), a text, or a range (rows of floats
+# and texts, '' for an empty cell).
+_calc_cell = st.one_of(st.floats(allow_nan=False), st.sampled_from(["", "n/a", ">=1", "rise", "month",
+                                                                   "1150", "TRUE"]))
+_calc_value = st.one_of(st.none(), _calc_cell,
+                        st.integers(1, 40).flatmap(lambda n: st.lists(
+                            st.lists(_calc_cell, min_size=1, max_size=2).map(tuple), min_size=n,
+                            max_size=n).map(tuple)))
+
+
+@pytest.mark.parametrize("name", list(FUNCTIONS))
+@settings(max_examples=40, deadline=None)
+@given(args=st.lists(_calc_value, min_size=8, max_size=8))
+def test_any_calc_arguments_give_rectangular_cells_or_a_message(name, args):
+    out = face.call(name, tuple(args[:len(FUNCTIONS[name].args)]))
+    assert isinstance(out, tuple) and out and all(isinstance(r, tuple) for r in out)
+    assert len({len(r) for r in out}) == 1, "Calc needs a rectangular result"
+    assert all(type(v) in (float, str) for r in out for v in r), out
+    if len(out) == 1 and isinstance(out[0][0], str) and out[0][0].startswith("#tocsin"):
+        assert "unexpected error" not in out[0][0], out
 
 
 # ------------------------------------------------------------------------- the extension package
