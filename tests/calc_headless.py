@@ -19,6 +19,7 @@ from __future__ import annotations
 import json
 import os
 import shutil
+import signal
 import subprocess
 import sys
 import sysconfig
@@ -121,10 +122,17 @@ class Calc:
                "TOCSIN_PYTHONPATH": tocsin_pythonpath() if pythonpath is None else pythonpath}
         env.pop("PYTHONPATH", None)       # the venv's path must not leak into the system Python
         env.pop("PYTHONHOME", None)
-        proc = subprocess.run([self.python, str(DRIVER), str(spec), str(result)], capture_output=True,
-                              text=True, timeout=timeout, env=env)
+        # a session of its own, so that a driver that hangs is stopped together with its soffice
+        proc = subprocess.Popen([self.python, str(DRIVER), str(spec), str(result)], stdout=subprocess.PIPE,
+                                stderr=subprocess.PIPE, text=True, env=env, start_new_session=True)
+        try:
+            _, stderr = proc.communicate(timeout=timeout)
+        except subprocess.TimeoutExpired:
+            os.killpg(proc.pid, signal.SIGKILL)
+            proc.communicate()
+            raise RuntimeError(f"the UNO driver did not finish within {timeout:.0f} s") from None
         if proc.returncode != 0 or not result.exists():
-            raise RuntimeError(f"the UNO driver failed ({proc.returncode}): {proc.stderr[-3000:]}")
+            raise RuntimeError(f"the UNO driver failed ({proc.returncode}): {stderr[-3000:]}")
         return json.loads(result.read_text(encoding="utf-8"))
 
     def close(self) -> None:
