@@ -1,10 +1,12 @@
-"""Generate ``formulas_demo.xlsx``: tocsin's spreadsheet functions as formulas next to the ferry data.
+"""Generate ``formulas_demo.xlsx`` and ``formulas_demo.ods``: tocsin's spreadsheet functions as
+formulas next to the ferry data, for Excel (xlwings) and for LibreOffice Calc (tocsin's add-in).
 
 Usage::
 
-    python sample_workbooks/make_formulas_demo.py [OUTDIR]     # default: the folder of this script
+    python sample_workbooks/make_formulas_demo.py [--no-ods] [OUTDIR]   # default: this script's folder
 
-or, from the sample generator, ``write_formulas_demo(outdir)``.
+or, from the sample generator, ``write_formulas_demo(outdir)`` (the .xlsx) and
+``write_formulas_demo_ods(outdir)`` (the .ods; needs LibreOffice headless, unopkg and python3-uno).
 
 The workbook holds the same invented ferry data as ``island_ferry.xlsx`` (same seed) and, next to it,
 the spreadsheet functions that reproduce the watcher's forecast sheet of the job "second sailing"
@@ -18,6 +20,14 @@ with its computed value cached in the file, so the numbers show before the add-i
 Sheets: "About" (what this is and how to switch the functions on), "Passengers" (data and the
 forecast columns), "Scores" (validation scorecard and the logistic model), "Profile" (event rate by
 month and year), "xlwings.conf" (the add-in's setting).
+
+The LibreOffice version has the same sheets but xlwings.conf, and the same formulas under the names
+LibreOffice 7.x stores for tocsin's add-in (``TOCSIN.EVENT_FLAG``), as array formulas sized to the data
+(LibreOffice 7.4 does not spill). It is made by LibreOffice itself: an .xlsx variant with those names
+and array formulas is opened in LibreOffice headless with the add-in installed in a throwaway profile
+(tests/calc_headless.py), recalculated, and saved as .ods; the document dates, the thumbnail (a
+rendering) and the zip timestamps are then fixed, so a rerun on the same LibreOffice gives the same
+content.
 
 Needs numpy, xlsxwriter and tocsin itself (the cached values are computed by ``sheetfns.udf``, which
 imports xlwings). Deterministic: fixed document properties; xlsxwriter writes fixed zip timestamps.
@@ -35,6 +45,8 @@ from typing import Any
 
 HERE = Path(__file__).resolve().parent
 FILE_NAME = "formulas_demo.xlsx"
+ODS_NAME = "formulas_demo.ods"
+CALC_PREFIX = "TOCSIN."         # LibreOffice 7.x: the add-in's service name, dot, the function
 JOB = "second sailing"          # the job of island_ferry.xlsx these formulas reproduce
 CRITERION = ">=1150"
 CYCLE, HARMONICS, SEASON = 365.25, 2, 7   # the job table's defaults for daily data (DESIGN.md §7)
@@ -64,6 +76,25 @@ ABOUT = (
     "",
     "Caution: these are statistical forecasts from past data, not a substitute for official warnings, "
     "clinical or engineering judgement, or the procedures that apply where you work.",
+)
+ABOUT_CALC = (
+    "tocsin spreadsheet functions in LibreOffice Calc: a demo",
+    ABOUT[1],
+    ABOUT[2].replace("island_ferry.xlsx). Columns E to O are formulas",
+                     "island_ferry.xlsx). Columns E to O are array formulas"),
+    "",
+    "To make the formulas live (LibreOffice 7.4 or later on Linux, its Python able to import tocsin):",
+    "1. Install tocsin where LibreOffice's Python finds it and point TOCSIN_PYTHONPATH at it (see the "
+    "README, section LibreOffice Calc).",
+    "2. Run: tocsin calc-addin, then: unopkg add tocsin.oxt (as root: unopkg add --shared tocsin.oxt). "
+    "Restart LibreOffice.",
+    "3. Open this file and recalculate (Data > Calculate > Recalculate Hard, Ctrl+Shift+F9).",
+    "",
+    "Without the add-in the cells show the values saved in the file; recalculating them then shows "
+    "#NAME?. A result fills an array formula sized to the data: to write a new one, select the range "
+    "and enter the formula with Ctrl+Shift+Enter.",
+    "",
+    ABOUT[-1],
 )
 
 
@@ -133,7 +164,7 @@ class Formula:
     args: tuple[Any, ...]
     result: Any = None
 
-    def text(self) -> str:
+    def text(self, prefix: str = "") -> str:
         parts = []
         for a in self.args:
             if isinstance(a, Rng):
@@ -146,7 +177,7 @@ class Formula:
                 parts.append("TRUE" if a else "FALSE")
             else:
                 parts.append(repr(a) if isinstance(a, float) and a != int(a) else str(int(a)))
-        return f"={self.name}({','.join(parts)})"
+        return f"={prefix}{self.name}({','.join(parts)})"
 
     def shape(self) -> tuple[int, int]:
         if isinstance(self.result, list):
@@ -287,8 +318,10 @@ def plan() -> Demo:
 
 # --------------------------------------------------------------------------------------------- writing
 
-def formulas_demo_bytes() -> bytes:
-    """The bytes of ``formulas_demo.xlsx``."""
+def formulas_demo_bytes(*, calc: bool = False) -> bytes:
+    """The bytes of ``formulas_demo.xlsx``; with ``calc``, of its variant for LibreOffice (the names
+    LibreOffice stores, array formulas sized to the data, no xlwings.conf), which
+    :func:`write_formulas_demo_ods` turns into ``formulas_demo.ods``."""
     import xlsxwriter
 
     demo = plan()
@@ -310,18 +343,20 @@ def formulas_demo_bytes() -> bytes:
 
     about = wb.add_worksheet("About")
     about.set_column(0, 0, 110, wrap)
-    for i, line in enumerate(ABOUT):
+    for i, line in enumerate(ABOUT_CALC if calc else ABOUT):
         about.write_string(i, 0, line, bold if i == 0 else wrap)
 
     sheets = {name: wb.add_worksheet(name) for name in (DATA_SHEET, "Scores", "Profile")}
-    conf = wb.add_worksheet("xlwings.conf")
-    # read by the add-in from A1 down to the first blank row: one setting per row, name then value
-    conf.write_string(0, 0, "UDF Modules")
-    conf.write_string(0, 1, "sheetfns.udf")
-    conf.write_string(2, 0, "Read by the xlwings add-in (settings from A1 down to the first blank row). "
-                            "UDF Modules names the Python module with tocsin's spreadsheet functions.")
-    conf.set_column(0, 0, 16)
-    conf.set_column(1, 1, 16)
+    conf = wb.add_worksheet("xlwings.conf") if not calc else None
+    if conf is not None:
+        # read by the add-in from A1 down to the first blank row: one setting per row, name then value
+        conf.write_string(0, 0, "UDF Modules")
+        conf.write_string(0, 1, "sheetfns.udf")
+        conf.write_string(2, 0, "Read by the xlwings add-in (settings from A1 down to the first blank "
+                                "row). UDF Modules names the Python module with tocsin's spreadsheet "
+                                "functions.")
+        conf.set_column(0, 0, 16)
+        conf.set_column(1, 1, 16)
 
     spilled = set()
     for f in g.formulas:
@@ -345,8 +380,12 @@ def formulas_demo_bytes() -> bytes:
         rows = f.result if isinstance(f.result, list) else [[f.result]]
         cell_fmt = fmt["int"] if f.name in ("EVENT_FLAG", "EVENT_NAIVE", "EVENT_MAJORITY") else fmt["dec"]
         first = rows[0][0]
-        ws.write_dynamic_array_formula(f.row, f.col, f.row + h - 1, f.col + w - 1, f.text(),
-                                       cell_fmt, "" if first is None else first)
+        if calc:
+            ws.write_array_formula(f.row, f.col, f.row + h - 1, f.col + w - 1, f.text(CALC_PREFIX),
+                                   cell_fmt, "" if first is None else first)
+        else:
+            ws.write_dynamic_array_formula(f.row, f.col, f.row + h - 1, f.col + w - 1, f.text(),
+                                           cell_fmt, "" if first is None else first)
         for i, row in enumerate(rows):
             for j, v in enumerate(row):
                 if i == 0 and j == 0:
@@ -379,12 +418,67 @@ def write_formulas_demo(outdir: Path | str | None = None) -> Path:
     return path
 
 
+def normalised_ods(data: bytes) -> bytes:
+    """An .ods as LibreOffice saved it, with what changes from run to run fixed: the document dates
+    and editing time in meta.xml, the thumbnail (a rendering of the first sheet, left out) and the zip
+    timestamps. The stored ``mimetype`` member stays first and uncompressed (ODF 1.3, part 2, 3.3)."""
+    import re
+    import zipfile
+
+    stamp = FIXED_TIME.strftime("%Y-%m-%dT%H:%M:%S")
+    src = zipfile.ZipFile(io.BytesIO(data))
+    out = io.BytesIO()
+    with zipfile.ZipFile(out, "w") as dst:
+        for info in src.infolist():
+            if info.filename.startswith("Thumbnails/"):
+                continue
+            body = src.read(info)
+            if info.filename == "meta.xml":
+                text = body.decode("utf-8")
+                for tag in ("meta:creation-date", "dc:date", "meta:print-date"):
+                    text = re.sub(f"<{tag}>[^<]*</{tag}>", f"<{tag}>{stamp}</{tag}>", text)
+                text = re.sub(r"<meta:editing-duration>[^<]*</meta:editing-duration>",
+                              "<meta:editing-duration>PT0S</meta:editing-duration>", text)
+                body = text.encode("utf-8")
+            elif info.filename == "META-INF/manifest.xml":
+                body = re.sub(rb'\s*<manifest:file-entry[^>]*full-path="Thumbnails/[^"]*"[^>]*/>', b"", body)
+            fixed = zipfile.ZipInfo(info.filename, FIXED_TIME.timetuple()[:6])
+            fixed.compress_type = info.compress_type
+            fixed.external_attr = (0o40755 << 16) | 0x10 if info.is_dir() else 0o644 << 16
+            dst.writestr(fixed, body)
+    return out.getvalue()
+
+
+def write_formulas_demo_ods(outdir: Path | str | None = None) -> Path:
+    """Write ``formulas_demo.ods`` (made by LibreOffice headless with tocsin's add-in) into ``outdir``."""
+    import tempfile
+
+    sys.path.insert(0, str(HERE.parent / "tests"))
+    from calc_headless import Calc  # tests/calc_headless.py: a throwaway LibreOffice state
+
+    folder = Path(outdir) if outdir is not None else HERE
+    folder.mkdir(parents=True, exist_ok=True)
+    path = folder / ODS_NAME
+    with tempfile.TemporaryDirectory(prefix="tocsin-ods-") as tmp:
+        src, raw = Path(tmp) / "formulas_demo_calc.xlsx", Path(tmp) / "raw.ods"
+        src.write_bytes(formulas_demo_bytes(calc=True))
+        office = Calc(Path(tmp) / "office")
+        office.run([{"kind": "open", "path": str(src), "recalc": True,
+                     "save": [{"path": str(raw), "filter": "calc8"}]}])
+        path.write_bytes(normalised_ods(raw.read_bytes()))
+    return path
+
+
 def main(argv: list[str] | None = None) -> int:
-    args = sys.argv[1:] if argv is None else argv
+    args = sys.argv[1:] if argv is None else list(argv)
+    ods = "--no-ods" not in args
+    args = [a for a in args if a != "--no-ods"]
     if len(args) > 1 or (args and args[0] in ("-h", "--help")):
-        print("usage: python make_formulas_demo.py [OUTDIR]", file=sys.stderr)
+        print("usage: python make_formulas_demo.py [--no-ods] [OUTDIR]", file=sys.stderr)
         return 2
     print(write_formulas_demo(args[0] if args else None))
+    if ods:
+        print(write_formulas_demo_ods(args[0] if args else None))
     return 0
 
 

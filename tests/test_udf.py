@@ -101,18 +101,24 @@ def test_core_modules_never_import_xlwings_or_watchdog():
     assert out["loaded"] == []
 
 
-def test_udf_without_xlwings_fails_with_a_clear_message():
+def test_udf_without_xlwings_gives_the_plain_functions_and_the_excel_face_a_clear_message():
+    # Inside LibreOffice there is no xlwings: the package and its plain functions must still import
+    # (the Calc add-in calls them); only the xlwings face asks for xlwings.
     res = run_python("""
         import sys
         sys.modules["xlwings"] = None          # as if xlwings were not installed
-        import sheetfns.events                 # the core still imports
+        import sheetfns.udf, sheetfns.udf.functions
+        print(sheetfns.udf.EVENT_FLAG is sheetfns.udf.functions.EVENT_FLAG)
+        print(sheetfns.udf.EVENT_CUTOFF(1.0, 4.0))
         try:
-            import sheetfns.udf
+            import sheetfns.udf.excel
         except ImportError as exc:
             print(exc)
     """)
     assert res.returncode == 0, res.stderr
-    assert "needs xlwings" in res.stdout and "pip install 'tocsin[excel]'" in res.stdout
+    lines = res.stdout.splitlines()
+    assert lines[:2] == ["True", "0.2"]
+    assert "needs xlwings" in lines[2] and "pip install 'tocsin[excel]'" in lines[2]
 
 
 # xlwings' Windows decorators (xlwings/udfs.py) import pythoncom, pywintypes and win32com; stubbing

@@ -74,6 +74,13 @@ def build_parser() -> argparse.ArgumentParser:
                                    "their scorecards.")
     p.add_argument("dir", type=Path, nargs="?", default=Path("tocsin-demo"), metavar="DIR",
                    help="target folder (default: ./tocsin-demo)")
+
+    p = sub.add_parser("calc-addin", help="write the LibreOffice Calc add-in tocsin.oxt",
+                       description="Write tocsin.oxt, the extension that offers tocsin's spreadsheet "
+                                   "functions in LibreOffice Calc. Install it with: unopkg add tocsin.oxt "
+                                   "(as root: unopkg add --shared tocsin.oxt), then restart LibreOffice.")
+    p.add_argument("--out", type=Path, default=Path("."), metavar="DIR",
+                   help="folder to write tocsin.oxt into (default: the current folder)")
     return parser
 
 
@@ -136,8 +143,16 @@ def _cmd_demo(args: argparse.Namespace) -> int:
     return demo.run_demo(args.dir, progress=_stderr_progress())
 
 
+def _cmd_calc_addin(args: argparse.Namespace) -> int:
+    from watcher.cli import calc_addin
+    path = calc_addin.write_extension(args.out, version=VERSION, caution=CAUTION)
+    print(f"{path}: the LibreOffice Calc add-in. Install it with: unopkg add {path}  (as root: unopkg add "
+          "--shared ...); LibreOffice's Python must find tocsin: see TOCSIN_PYTHONPATH in the README.")
+    return 0
+
+
 COMMANDS = {"init": _cmd_init, "check": _cmd_check, "refresh": _cmd_refresh, "watch": _cmd_watch,
-            "demo": _cmd_demo}
+            "demo": _cmd_demo, "calc-addin": _cmd_calc_addin}
 
 
 def main(argv: Sequence[str] | None = None) -> int:
