@@ -56,8 +56,6 @@ class Split:
         Rows in the training period, the validation period, and after the last observation.
     n : int
         All rows (``train_size + valid_size + future_size``).
-    first_valid : int
-        0-based position of the first validation row (equal to ``train_size``).
     first_valid_date, last_observed_date : Timestamp or None
     frequency : str or None
         ``'daily'``, ``'weekly'``, ``'monthly'``, ``'quarterly'`` or None (see :func:`infer_frequency`).
@@ -73,7 +71,6 @@ class Split:
     valid_size: int
     future_size: int
     n: int
-    first_valid: int
     first_valid_date: Any = None
     last_observed_date: Any = None
     frequency: str | None = None
@@ -395,5 +392,5 @@ def split(index: Any, validation: Any = None, *, events: Any = None) -> Split:
                   "train_observed": int(np.count_nonzero(~np.isnan(tr))),
                   "valid_observed": int(np.count_nonzero(~np.isnan(va)))}
     return Split(train_size=train, valid_size=n_obs - train, future_size=n - n_obs, n=n,
-                 first_valid=train, first_valid_date=first_date, last_observed_date=last_date,
+                 first_valid_date=first_date, last_observed_date=last_date,
                  frequency=freq, gaps=gaps or (), notes=tuple(notes), **counts)
