@@ -80,14 +80,14 @@ def as_prob(values: Any, name: str = "prob", *, allow_empty: bool = False) -> np
 
 def same_length(**arrays: Sequence[Any] | np.ndarray) -> int:
     """Check that every named array has the same length; return it. On a mismatch the error's
-    ``argument`` is the first array whose length differs from the first one's, ``value`` its length."""
+    ``argument`` names the first array whose length differs from the first one's."""
     lengths = {k: len(v) for k, v in arrays.items() if v is not None}
     if len(set(lengths.values())) > 1:
         shown = ", ".join(f"`{k}` has {n}" for k, n in lengths.items())
         first = next(iter(lengths.values()))
         odd = next(k for k, n in lengths.items() if n != first)
         raise InputError(f"inputs must have the same length; {shown} rows", argument=odd,
-                         value=lengths[odd])
+                         value=arrays[odd])
     return next(iter(lengths.values()), 0)
 
 

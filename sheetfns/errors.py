@@ -20,8 +20,8 @@ class InputError(TocsinError):
     ``argument``
         The name of the argument at fault, as the core spells it (``"horizon"``, ``"actual"``).
     ``value``
-        What came: the offending value itself (a cell's content, a count), or for a series the
-        offending element.
+        What came: the argument as it was given, or, where one element of a series is at fault, that
+        element.
     ``location``
         Where in the argument: the 1-based position (row) of the offending element of a series.
 

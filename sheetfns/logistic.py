@@ -101,22 +101,24 @@ def fit(X: Any, y: Any, add_constant: bool = True, *, start: Any = None,
         x = np.empty((yy.size, 0))
     if x.shape[0] != yy.size:
         raise InputError(f"`X` and `y` must have the same number of rows; `X` has {x.shape[0]}, "
-                         f"`y` has {yy.size}")
+                         f"`y` has {yy.size}", argument="X", value=X)
     if names is None:
         cols = getattr(X, "columns", None)
         names = [str(c) for c in cols] if cols is not None else [f"x{j + 1}" for j in range(x.shape[1])]
     if len(names) != x.shape[1]:
-        raise InputError(f"`names` must label the {x.shape[1]} columns of `X`; got {len(names)} names")
+        raise InputError(f"`names` must label the {x.shape[1]} columns of `X`; got {len(names)} names",
+                         argument="names", value=names)
     terms = (["constant"] if add_constant else []) + list(names)
     if not terms:
-        raise InputError("`X` has no column and `add_constant` is False: there is nothing to fit")
+        raise InputError("`X` has no column and `add_constant` is False: there is nothing to fit",
+                         argument="X", value=X)
     ok = ~np.isnan(yy)
     if x.shape[1]:
         ok &= ~np.isnan(x).any(axis=1)
     dropped = int(yy.size - ok.sum())
     if not ok.any():
         raise InputError(f"`X` and `y` have no complete row: each of the {yy.size} rows has a missing "
-                         f"value in `y` or in a column of `X`")
+                         f"value in `y` or in a column of `X`", argument="X", value=X)
     if dropped:
         x, yy = x[ok], yy[ok]
     if add_constant:
@@ -126,7 +128,7 @@ def fit(X: Any, y: Any, add_constant: bool = True, *, start: Any = None,
         b0 = np.asarray(start, dtype=float).reshape(-1)
         if b0.size != len(terms):
             raise InputError(f"`start` must hold {len(terms)} values (one per term, constant first); "
-                             f"got {b0.size}")
+                             f"got {b0.size}", argument="start", value=start)
     notes = [f"dropped {dropped} of {dropped + yy.size} rows with a missing value in y or X"] if dropped \
         else []
     return fit_complete(x, yy, terms, add_constant=add_constant, start=b0, tol=tol, maxiter=maxiter,
@@ -210,10 +212,11 @@ def forecast(y: Any, *, values: Any = None, predictors: Mapping[str, Any] | None
     yy = as_events(y, "y")
     n = yy.size
     if n < 2:
-        raise InputError(f"`y` must have at least 2 rows to forecast from its past; got {n}")
+        raise InputError(f"`y` must have at least 2 rows to forecast from its past; got {n}", argument="y",
+                         value=y)
     last = last_observed(yy)
     if last < 0:
-        raise InputError(f"`y` has no observed value: all {n} rows are blank (NaN)")
+        raise InputError(f"`y` has no observed value: all {n} rows are blank (NaN)", argument="y", value=y)
     horizon = as_int(horizon, "horizon", minimum=1)
     lags = as_int(lags, "lags", minimum=0)
     harmonics = as_int(harmonics, "harmonics", minimum=0)
@@ -221,17 +224,20 @@ def forecast(y: Any, *, values: Any = None, predictors: Mapping[str, Any] | None
         longest = last - max(lags, 1) + 1
         raise InputError(f"`horizon` is longer than the data: with {last + 1} rows up to the last "
                          f"observation and lags={lags} it can be at most {max(longest, 0)}; "
-                         f"got {horizon}")
+                         f"got {horizon}", argument="horizon", value=horizon)
     if cycle is not None:
         try:
             cyc = float(cycle)
         except (TypeError, ValueError) as exc:
-            raise InputError(f"`cycle` must be a positive number of periods; got {cycle!r}") from exc
+            raise InputError(f"`cycle` must be a positive number of periods; got {cycle!r}", argument="cycle",
+                             value=cycle) from exc
         if not (math.isfinite(cyc) and cyc > 0.0):
-            raise InputError(f"`cycle` must be a positive number of periods; got {cycle!r}")
+            raise InputError(f"`cycle` must be a positive number of periods; got {cycle!r}", argument="cycle",
+                             value=cycle)
         cycle = cyc
     if weekday and dates is None:
-        raise InputError("`weekday` needs `dates`; got weekday=True with dates=None")
+        raise InputError("`weekday` needs `dates`; got weekday=True with dates=None", argument="dates",
+                         value=dates)
     every = parse_refit(refit)
     if train_size is not None:
         train_size = as_int(train_size, "train_size", minimum=1, maximum=n)
@@ -245,7 +251,7 @@ def parse_refit(refit: Any) -> int:
     """``"fixed"`` -> 0, ``"roll"`` -> 1, ``"roll N"`` -> N (refit every N origins)."""
     expected = "`refit` must be 'fixed', 'roll' or 'roll N' (N a whole number >= 1)"
     if not isinstance(refit, str):
-        raise InputError(f"{expected}; got {refit!r}")
+        raise InputError(f"{expected}; got {refit!r}", argument="refit", value=refit)
     words = refit.strip().lower().split()
     if words == ["fixed"]:
         return 0
@@ -253,4 +259,4 @@ def parse_refit(refit: Any) -> int:
         return 1
     if len(words) == 2 and words[0] == "roll" and words[1].isdigit() and int(words[1]) >= 1:
         return int(words[1])
-    raise InputError(f"{expected}; got {refit!r}")
+    raise InputError(f"{expected}; got {refit!r}", argument="refit", value=refit)

@@ -181,7 +181,8 @@ def run(y: np.ndarray, design: Design, *, last: int, horizon: int, train_size: i
         m0 = int(window(t0 - horizon))
         if m0 < k + 1:
             raise InputError(f"`train_size` leaves {m0} usable rows for {k} terms at the first "
-                             f"validation origin; need at least {k + 1}; got train_size={train_size}")
+                             f"validation origin; need at least {k + 1}; got train_size={train_size}",
+                             argument="train_size", value=train_size)
         fixed_rows = _rows(0, min(t0 - horizon, last))
         if every == 0:
             notes.append(f"fixed: coefficients estimated once on {fixed_rows} (the rows observed at the "

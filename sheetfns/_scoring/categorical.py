@@ -239,13 +239,14 @@ def _as_counts(table: Any) -> tuple[float, float, float, float]:
         missing = [k for k in ("hits", "false_alarms", "misses", "correct_negatives") if k not in table]
         if missing:
             raise InputError(f"`confusion` must hold hits, false_alarms, misses and correct_negatives; "
-                             f"missing {', '.join(missing)}")
+                             f"missing {', '.join(missing)}", argument="confusion", value=table)
         vals = [table["hits"], table["false_alarms"], table["misses"], table["correct_negatives"]]
     elif isinstance(table, Sequence) and not isinstance(table, str) and len(table) == 4:
         vals = list(table)
     else:
         raise InputError("`confusion` must be a Confusion, a mapping of the four counts or "
-                         f"(hits, false_alarms, misses, correct_negatives); got {_show(table)}")
+                         f"(hits, false_alarms, misses, correct_negatives); got {_show(table)}",
+                         argument="confusion", value=table)
     names = ("hits", "false_alarms", "misses", "correct_negatives")
     a, b, c, d = (_count(v, k) for v, k in zip(vals, names, strict=True))
     return a, b, c, d
@@ -297,7 +298,8 @@ def cost_cutoff(cost_false_alarm: float, cost_miss: float) -> float:
     cfa = _cost(cost_false_alarm, "cost_false_alarm")
     cmiss = _cost(cost_miss, "cost_miss")
     if cfa + cmiss == 0:
-        raise InputError("`cost_false_alarm` and `cost_miss` must not both be zero; got 0 and 0")
+        raise InputError("`cost_false_alarm` and `cost_miss` must not both be zero; got 0 and 0",
+                         argument="cost_miss", value=cost_miss)
     return cfa / (cfa + cmiss)
 
 

@@ -52,12 +52,12 @@ def _bin_index(p: np.ndarray, bins: int | Sequence[float]) -> tuple[np.ndarray, 
     try:
         edges = np.asarray(bins, dtype=float)
     except (TypeError, ValueError) as exc:
-        raise InputError(f"`bins` must be a number of bins or a sequence of edges; got {_show(bins)}"
-                         ) from exc
+        raise InputError(f"`bins` must be a number of bins or a sequence of edges; got {_show(bins)}",
+                         argument="bins", value=bins) from exc
     if (edges.ndim != 1 or edges.size < 2 or not np.all(np.diff(edges) > 0)
             or edges[0] > 0.0 or edges[-1] < 1.0):
         raise InputError("`bins` edges must be increasing and cover [0, 1] (first <= 0, last >= 1); "
-                         f"got {_show(bins)}")
+                         f"got {_show(bins)}", argument="bins", value=bins)
     idx = np.searchsorted(edges, p, side="right") - 1
     return np.clip(idx, 0, edges.size - 2), edges
 
@@ -264,10 +264,10 @@ def _reference_value(reference: Any) -> float:
         x = float(reference)
     except (TypeError, ValueError) as exc:
         raise InputError(f"`reference` must be a probability in [0, 1] or a series of them; "
-                         f"got {_show(reference)}") from exc
+                         f"got {_show(reference)}", argument="reference", value=reference) from exc
     if not 0.0 <= x <= 1.0:
         raise InputError(f"`reference` must be a probability in [0, 1] or a series of them; "
-                         f"got {_show(reference)}")
+                         f"got {_show(reference)}", argument="reference", value=reference)
     return x
 
 

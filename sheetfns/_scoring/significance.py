@@ -143,7 +143,8 @@ def diebold_mariano(actual: Any, prob_a: Any, prob_b: Any, horizon: int = 1
         q.warn("fewer than 2 scored rows")
         return math.nan, math.nan
     if h >= t:
-        raise InputError(f"`horizon` must be less than the number of scored rows ({t}); got {horizon}")
+        raise InputError(f"`horizon` must be less than the number of scored rows ({t}); got {horizon}",
+                         argument="horizon", value=horizon)
     d = (pa - o) ** 2 - (pb - o) ** 2
     e = d - d.mean()
     gamma0 = float(e @ e) / t
@@ -212,14 +213,16 @@ def wilson(successes: float, n: float, confidence: float = 0.95) -> tuple[float,
     x = _number(successes, "successes")
     m = _number(n, "n")
     if x > m:
-        raise InputError(f"`successes` must not exceed `n` ({_show(n)}); got {_show(successes)}")
+        raise InputError(f"`successes` must not exceed `n` ({_show(n)}); got {_show(successes)}",
+                         argument="successes", value=successes)
     try:
         conf = float(confidence)
     except (TypeError, ValueError) as exc:
         raise InputError(f"`confidence` must be a number strictly between 0 and 1; "
-                         f"got {_show(confidence)}") from exc
+                         f"got {_show(confidence)}", argument="confidence", value=confidence) from exc
     if not 0.0 < conf < 1.0:
-        raise InputError(f"`confidence` must be a number strictly between 0 and 1; got {_show(confidence)}")
+        raise InputError(f"`confidence` must be a number strictly between 0 and 1; got {_show(confidence)}",
+                         argument="confidence", value=confidence)
     if m == 0:
         q = Quotient()
         q.mark("wilson interval")
