@@ -135,7 +135,7 @@ def as_dates(values: Any, name: str = "dates") -> np.ndarray:
             what = "a blank" if blank else repr(v)
             raise InputError(f"`{name}` must hold a date in every row; got {what} in row {i + 1}",
                              argument=name, value=v, location=i + 1)
-        import pandas as pd
+        import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
         try:
             idx = pd.DatetimeIndex(seq)
         except (TypeError, ValueError):      # zone-aware values of several zones
@@ -247,7 +247,7 @@ def default_cycle(freq: str | None) -> float | None:
 def _gaps(d: np.ndarray, freq: str | None) -> tuple[Gap, ...]:
     if freq is None or d.size < 2:
         return ()
-    import pandas as pd
+    import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
     steps = _steps(d, freq)
     where = np.flatnonzero(steps > 1)
     return tuple(Gap(row=int(i) + 2, before=pd.Timestamp(d[i]), after=pd.Timestamp(d[i + 1]),
@@ -382,7 +382,7 @@ def split(index: Any, validation: Any = None, *, events: Any = None) -> Split:
     freq = gaps = None
     first_date = last_date = None
     if dates is not None:
-        import pandas as pd
+        import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
         freq = _frequency(dates)
         gaps = _gaps(dates, freq)
         first_date, last_date = pd.Timestamp(dates[train]), pd.Timestamp(dates[n_obs - 1])

@@ -73,7 +73,7 @@ def rate_table(dates: Any, events: Any, by: str = "month") -> pd.DataFrame:
     >>> t.loc[1, [2023, 2024, "all years", "events", "rows"]].tolist()
     [0.5, 1.0, 0.6666666666666666, 2.0, 3.0]
     """
-    import pandas as pd
+    import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
 
     if by not in BY:
         raise InputError(f"`by` must be one of {', '.join(repr(b) for b in BY)}; got {by!r}", argument="by",
@@ -129,7 +129,7 @@ def seasonal_trend(table: pd.DataFrame, degree: int = 2) -> pd.Series:
     Series named ``'trend'`` on the table's index; ``attrs['coefficients']`` holds
     ``(b0, b1, ..., bk)`` for x = period number (1-based).
     """
-    import pandas as pd
+    import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
 
     if not isinstance(table, pd.DataFrame) or ALL_YEARS not in table or ROWS not in table:
         raise InputError(f"`table` must be a table made by rate_table (with the columns "

@@ -298,7 +298,7 @@ def brier_decomposition(actual: Any, prob: Any, bins: int | Sequence[float] = 10
     .. [3] Stephenson, D. B., Coelho, C. A. S., & Jolliffe, I. T. (2008). Two extra components in
        the Brier score decomposition. *Weather and Forecasting*, 23, 752-757.
     """
-    import pandas as pd
+    import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
 
     a, p = paired_prob(actual, prob=prob)
     edges, count, sum_p, sum_o = _bins(a, p, bins)
