@@ -121,3 +121,11 @@ def test_a_date_error_carries_the_offending_date():
 def test_a_bad_series_element_is_the_value():
     exc = _caught(lambda: checks.as_prob([0.1, math.inf], "prob"))
     assert exc.value == math.inf and exc.location == 2 and "position 2" in str(exc)
+
+
+def test_the_documented_example_runs():
+    import doctest
+
+    from sheetfns import errors
+    result = doctest.testmod(errors)
+    assert result.attempted >= 1 and result.failed == 0
