@@ -31,23 +31,24 @@ def _prepare(y: Any, horizon: Any, train_size: Any, *, events: bool) -> tuple[np
     arr = as_events(y, "y") if events else as_series(y, "y")
     n = arr.size
     if n < 2:
-        raise InputError(f"`y` must have at least 2 rows; got {n}")
+        raise InputError(f"`y` must have at least 2 rows; got {n}", argument="y", value=y)
     obs = ~np.isnan(arr)
     if not obs.any():
-        raise InputError(f"`y` has no observed values (all {n} rows are blank)")
+        raise InputError(f"`y` has no observed values (all {n} rows are blank)", argument="y")
     last = n - 1 - int(np.argmax(obs[::-1]))
     n_obs = last + 1
     h = as_int(horizon, "horizon", minimum=1)
     if h > n_obs:
-        raise InputError(f"`horizon` must be at most the number of observed rows ({n_obs}); got {h}")
+        raise InputError(f"`horizon` must be at most the number of observed rows ({n_obs}); got {h}",
+                         argument="horizon", value=horizon)
     size = as_int(train_size, "train_size", minimum=1, allow_none=True)
     if size is not None:
         if size > n_obs:
             raise InputError(f"`train_size` must be at most the number of observed rows ({n_obs}); "
-                             f"got {size}")
+                             f"got {size}", argument="train_size", value=train_size)
         if not obs[:size].any():
             raise InputError(f"`train_size` {size} leaves no observed training rows: rows 1 to {size} "
-                             f"of `y` are blank")
+                             f"of `y` are blank", argument="train_size", value=train_size)
     return arr, obs, last, h, size
 
 
@@ -122,7 +123,8 @@ def naive(y: Any, horizon: int = 1, season: int = 1, train_size: int | None = No
     period = size if size is not None else last + 1
     m = as_int(season, "season", minimum=1)
     if m > period:
-        raise InputError(f"`season` must be at most the training period ({period} rows); got {m}")
+        raise InputError(f"`season` must be at most the training period ({period} rows); got {m}",
+                         argument="season", value=season)
     if m == 1:
         return _at_origin(_ffill(arr, obs), h, last, size, np.nan)
     # ffill within each season: row p -> the latest observed row <= p with the same p mod m
@@ -149,7 +151,8 @@ def _window_counts(arr: np.ndarray, obs: np.ndarray, window: Any, h: int, last: 
     """Events and observed rows among rows (o(t) - w, o(t)] (all rows <= o(t) when window is None)."""
     w = as_int(window, "window", minimum=1, allow_none=True)
     if w is not None and w > last + 1:
-        raise InputError(f"`window` must be at most the number of observed rows ({last + 1}); got {w}")
+        raise InputError(f"`window` must be at most the number of observed rows ({last + 1}); got {w}",
+                         argument="window", value=window)
     kind = _count_type(arr.size)
     ev = np.cumsum(arr == 1.0, dtype=kind)                    # NaN == 1.0 is False
     ob = np.cumsum(obs, dtype=kind)

@@ -1,7 +1,8 @@
 """Validation helpers shared by the core: one place, one message shape.
 
 Every helper raises :class:`~sheetfns.errors.InputError` whose message names the argument, says what
-was expected and quotes what came, e.g. "`horizon` must be an integer >= 1; got 0".
+was expected and quotes what came, e.g. "`horizon` must be an integer >= 1; got 0", and whose fields
+``argument``, ``value`` and ``location`` carry the same facts for callers.
 """
 from __future__ import annotations
 
@@ -29,7 +30,8 @@ def as_series(values: Any, name: str, *, allow_empty: bool = False) -> np.ndarra
         try:
             seq = list(values.tolist() if hasattr(values, "tolist") else values)
         except TypeError as exc:
-            raise InputError(f"`{name}` must be a 1-D sequence of numbers; got {_show(values)}") from exc
+            raise InputError(f"`{name}` must be a 1-D sequence of numbers; got {_show(values)}",
+                             argument=name, value=values) from exc
         out = np.empty(len(seq), dtype=float)
         for i, v in enumerate(seq):
             if v is None or (isinstance(v, str) and v.strip() == ""):
@@ -40,16 +42,17 @@ def as_series(values: Any, name: str, *, allow_empty: bool = False) -> np.ndarra
                 try:
                     out[i] = float(v)
                 except (TypeError, ValueError) as exc:
-                    raise InputError(
-                        f"`{name}` must hold numbers; got {_show(v)} at position {i + 1}") from exc
+                    raise InputError(f"`{name}` must hold numbers; got {_show(v)} at position {i + 1}",
+                                     argument=name, value=v, location=i + 1) from exc
         arr = out
     if arr.ndim != 1:
         if arr.ndim == 2 and 1 in arr.shape:
             arr = arr.reshape(-1)
         else:
-            raise InputError(f"`{name}` must be one-dimensional; got shape {arr.shape}")
+            raise InputError(f"`{name}` must be one-dimensional; got shape {arr.shape}", argument=name,
+                             value=values)
     if not allow_empty and arr.size == 0:
-        raise InputError(f"`{name}` must not be empty; got 0 rows")
+        raise InputError(f"`{name}` must not be empty; got 0 rows", argument=name, value=values)
     return arr
 
 
@@ -60,7 +63,7 @@ def as_events(values: Any, name: str = "actual", *, allow_empty: bool = False) -
     if bad.any():
         i = int(np.flatnonzero(bad)[0])
         raise InputError(f"`{name}` contains values not in {{0, 1, NaN}}; got {_show(arr[i])} "
-                         f"at position {i + 1}")
+                         f"at position {i + 1}", argument=name, value=float(arr[i]), location=i + 1)
     return arr
 
 
@@ -71,16 +74,20 @@ def as_prob(values: Any, name: str = "prob", *, allow_empty: bool = False) -> np
     if bad.any():
         i = int(np.flatnonzero(bad)[0])
         raise InputError(f"`{name}` must hold probabilities in [0, 1]; got {_show(arr[i])} "
-                         f"at position {i + 1}")
+                         f"at position {i + 1}", argument=name, value=float(arr[i]), location=i + 1)
     return arr
 
 
 def same_length(**arrays: Sequence[Any] | np.ndarray) -> int:
-    """Check that every named array has the same length; return it."""
+    """Check that every named array has the same length; return it. On a mismatch the error's
+    ``argument`` names the first array whose length differs from the first one's."""
     lengths = {k: len(v) for k, v in arrays.items() if v is not None}
     if len(set(lengths.values())) > 1:
         shown = ", ".join(f"`{k}` has {n}" for k, n in lengths.items())
-        raise InputError(f"inputs must have the same length; {shown} rows")
+        first = next(iter(lengths.values()))
+        odd = next(k for k, n in lengths.items() if n != first)
+        raise InputError(f"inputs must have the same length; {shown} rows", argument=odd,
+                         value=arrays[odd])
     return next(iter(lengths.values()), 0)
 
 
@@ -90,20 +97,23 @@ def as_int(value: Any, name: str, *, minimum: int | None = None, maximum: int | 
     if value is None:
         if allow_none:
             return None
-        raise InputError(f"`{name}` must be an integer; got None")
+        raise InputError(f"`{name}` must be an integer; got None", argument=name, value=value)
     if isinstance(value, (bool, np.bool_)):
-        raise InputError(f"`{name}` must be an integer; got {_show(value)}")
+        raise InputError(f"`{name}` must be an integer; got {_show(value)}", argument=name, value=value)
     try:
         f = float(value)
     except (TypeError, ValueError) as exc:
-        raise InputError(f"`{name}` must be an integer; got {_show(value)}") from exc
+        raise InputError(f"`{name}` must be an integer; got {_show(value)}", argument=name,
+                         value=value) from exc
     if not np.isfinite(f) or f != int(f):
-        raise InputError(f"`{name}` must be an integer; got {_show(value)}")
+        raise InputError(f"`{name}` must be an integer; got {_show(value)}", argument=name, value=value)
     i = int(f)
     if minimum is not None and i < minimum:
-        raise InputError(f"`{name}` must be an integer >= {minimum}; got {_show(value)}")
+        raise InputError(f"`{name}` must be an integer >= {minimum}; got {_show(value)}", argument=name,
+                         value=value)
     if maximum is not None and i > maximum:
-        raise InputError(f"`{name}` must be an integer <= {maximum}; got {_show(value)}")
+        raise InputError(f"`{name}` must be an integer <= {maximum}; got {_show(value)}", argument=name,
+                         value=value)
     return i
 
 
@@ -112,13 +122,13 @@ def as_nonnegative(value: Any, name: str, *, what: str = "a number") -> float:
     "`hits` must be a count (a number >= 0); got -1"."""
     message = f"`{name}` must be {what} (a number >= 0); got {_show(value)}"
     if isinstance(value, (bool, np.bool_)):
-        raise InputError(message)
+        raise InputError(message, argument=name, value=value)
     try:
         x = float(value)
     except (TypeError, ValueError) as exc:
-        raise InputError(message) from exc
+        raise InputError(message, argument=name, value=value) from exc
     if not np.isfinite(x) or x < 0:
-        raise InputError(message)
+        raise InputError(message, argument=name, value=value)
     return x
 
 

@@ -67,7 +67,7 @@ class Criterion:
 
 
 def _fail(text: str, what: str) -> CriterionError:
-    return CriterionError(f"criterion {text!r}: {what}")
+    return CriterionError(f"criterion {text!r}: {what}", argument="criterion", value=text)
 
 
 def _number(rest: str) -> float | None:
@@ -135,7 +135,8 @@ def parse_criterion(text: str) -> Criterion:
     True
     """
     if not isinstance(text, str):
-        raise CriterionError(f"criterion must be text such as '>=3.2' or 'rise'; got {text!r}")
+        raise CriterionError(f"criterion must be text such as '>=3.2' or 'rise'; got {text!r}",
+                             argument="criterion", value=text)
     s = text.strip()
     if not s:
         raise _fail(text, _EXPECTED)
@@ -177,11 +178,13 @@ def _coerce(values: Any) -> tuple[np.ndarray, np.ndarray | None]:
         try:
             obj = np.asarray(values, dtype=object)
         except (TypeError, ValueError) as exc:
-            raise InputError(f"`values` must be a 1-D sequence; got {type(values).__name__}") from exc
+            raise InputError(f"`values` must be a 1-D sequence; got {type(values).__name__}",
+                             argument="values", value=values) from exc
         if obj.ndim == 2 and 1 in obj.shape:
             obj = obj.reshape(-1)
         if obj.ndim != 1:
-            raise InputError(f"`values` must be one-dimensional; got shape {obj.shape}")
+            raise InputError(f"`values` must be one-dimensional; got shape {obj.shape}", argument="values",
+                             value=values)
         is_text = np.frompyfunc(lambda v: isinstance(v, str), 1, 1)(obj).astype(bool)
         text = None
         arr = np.full(obj.shape, np.nan)
@@ -199,12 +202,14 @@ def _coerce(values: Any) -> tuple[np.ndarray, np.ndarray | None]:
             if bad.size:
                 i = int(np.flatnonzero(rest)[bad[0]])
                 raise InputError(f"`values` must hold numbers, TRUE/FALSE, text or blanks; "
-                                 f"got {obj[i]!r} at position {i + 1}") from None
+                                 f"got {obj[i]!r} at position {i + 1}", argument="values",
+                                 value=obj[i], location=i + 1) from None
             arr[rest] = conv.astype(float)
     if arr.ndim == 2 and 1 in arr.shape:
         arr = arr.reshape(-1)
     if arr.ndim != 1:
-        raise InputError(f"`values` must be one-dimensional; got shape {arr.shape}")
+        raise InputError(f"`values` must be one-dimensional; got shape {arr.shape}", argument="values",
+                         value=values)
     return arr, text
 
 
@@ -323,5 +328,5 @@ def flag(values: Any, criterion: str | Criterion, min_run: int = 1) -> np.ndarra
     k = as_int(min_run, "min_run", minimum=1)
     x, text = _coerce(values)
     if x.size == 0:
-        raise InputError("`values` must not be empty; got 0 rows")
+        raise InputError("`values` must not be empty; got 0 rows", argument="values", value=values)
     return _hold_for(_condition(crit, x, text), k)

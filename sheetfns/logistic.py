@@ -10,6 +10,11 @@ Public API (DESIGN.md §4):
   coefficient table and notes. Its design matrix is documented in :mod:`sheetfns._logit.design`; the
   estimation schemes (fixed, roll-forward, every N origins) in the docstring of :func:`forecast`.
 
+The work is done in :mod:`sheetfns._logit` (``results``: the result types; ``estimate``: one fit with
+its checks; ``irls``: the Newton solver; ``design``: the design matrix; ``rolling``: the refit
+schemes); this module checks the arguments, calls them and re-exports the result types. Imports run
+one way: this module -> ``_logit`` modules, never back.
+
 References
 ----------
 1. Greene, W. H. (2003). *Econometric Analysis* (5th ed.), ch. 21. Prentice Hall.
@@ -21,140 +26,22 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 
 from sheetfns._logit import design as _design
-from sheetfns._logit import irls as _irls
+from sheetfns._logit.estimate import RIDGE, TOL, fit_complete, min_rows
+from sheetfns._logit.results import LogitFit, LogitForecast, as_matrix, coefficient_table
+from sheetfns._logit.rolling import run
 from sheetfns.checks import as_events, as_int, last_observed
 from sheetfns.errors import InputError
 
 __all__ = ["LogitFit", "LogitForecast", "fit", "forecast", "coefficient_table", "RIDGE", "min_rows"]
 
-#: Ridge penalty used when the likelihood has no finite maximum (separation): the objective becomes
-#: ``llf - RIDGE / 2 * sum_j var(x_j) * b_j**2`` (constant unpenalised), i.e. 0.01 per squared
-#: coefficient in standard-deviation units -- small enough to leave well-fitted terms nearly as they
-#: are, large enough to keep separated terms finite.
-RIDGE = 1e-2
-#: Convergence of fit(): the largest change of a fitted linear predictor in the last Newton step. The
-#: error left after that step is ~0.1 tol**2 and a free correction step squares it (see _irls).
-_TOL = 1e-6
-
-
-@dataclass(frozen=True)
-class LogitFit:
-    """Result of :func:`fit`. ``params`` and ``bse``: the constant first, then the columns of X.
-
-    Attributes beyond the five of the contract: ``terms`` (labels), ``iterations`` (Newton steps),
-    ``nobs`` (rows used), ``dropped_rows`` (rows with a NaN), ``penalty`` (the ridge factor used, 0
-    for plain maximum likelihood), ``fallback`` (the majority share used instead of a logit when the
-    target is constant, else None), ``cov`` (covariance matrix of the estimates, or None),
-    ``add_constant``.
-    """
-
-    params: np.ndarray
-    bse: np.ndarray
-    llf: float
-    converged: bool
-    notes: tuple[str, ...] = ()
-    terms: tuple[str, ...] = ()
-    iterations: int = 0
-    nobs: int = 0
-    dropped_rows: int = 0
-    penalty: float = 0.0
-    fallback: float | None = None
-    cov: np.ndarray | None = None
-    add_constant: bool = True
-
-    @property
-    def z(self) -> np.ndarray:
-        """Wald statistics ``params / bse``."""
-        with np.errstate(divide="ignore", invalid="ignore"):
-            return self.params / self.bse
-
-    @property
-    def pvalues(self) -> np.ndarray:
-        """Two-sided p-values of the Wald statistics under the standard normal: erfc(|z| / sqrt 2)."""
-        return np.array([math.erfc(abs(z) / math.sqrt(2.0)) if np.isfinite(z) else np.nan
-                         for z in self.z])
-
-    @property
-    def clean(self) -> bool:
-        """Plain maximum likelihood: converged, no ridge, no dropped term, no fallback."""
-        return (self.converged and self.penalty == 0.0 and self.fallback is None
-                and not np.isnan(self.params).any())
-
-    def predict(self, X: Any) -> np.ndarray:
-        """Probabilities for the rows of ``X`` (same columns as given to :func:`fit`)."""
-        x = _as_matrix(X, "X")
-        if self.add_constant:
-            x = np.column_stack([np.ones(x.shape[0]), x])
-        return _predict(x, self.params, self.fallback)
-
-    def table(self):
-        """The coefficient table as a pandas DataFrame: term, estimate, std_error, z, p."""
-        return coefficient_table(self)
-
-
-@dataclass(frozen=True)
-class LogitForecast:
-    """Result of :func:`forecast`: ``prob`` aligned to the target row, the coefficient table, notes.
-
-    Beyond the contract: ``fit`` (the :class:`LogitFit` behind ``coefficients``), ``future_fit`` (the
-    fit on all observed rows used for future rows, or None), ``terms``, ``refits`` (number of
-    estimations done for the validation / roll-forward rows).
-    """
-
-    prob: np.ndarray
-    coefficients: Any
-    notes: tuple[str, ...] = ()
-    fit: LogitFit | None = None
-    future_fit: LogitFit | None = None
-    terms: tuple[str, ...] = ()
-    refits: int = 0
-
-
-def min_rows(n_terms: int) -> int:
-    """Smallest estimation sample for a roll-forward fit: 10 rows per term, at least 30.
-
-    Common practice (the "ten events per variable" rule of thumb; Peduzzi et al., 1996, *J. Clin.
-    Epidemiol.* 49(12), 1373-1379, counts events; tocsin counts rows and lets the notes report
-    separation when events are too few).
-    """
-    return max(30, 10 * n_terms)
-
-
-# ---------------------------------------------------------------------------------------------------
-# fit
-
-
-def _as_matrix(X: Any, name: str) -> np.ndarray:
-    if X is None:
-        return np.empty((0, 0))
-    try:
-        x = np.asarray(X, dtype=float)
-    except (TypeError, ValueError) as exc:
-        raise InputError(f"`{name}` must be a numeric matrix (rows x columns); got "
-                         f"{type(X).__name__}") from exc
-    if x.ndim == 1:
-        x = x[:, None]
-    if x.ndim != 2:
-        raise InputError(f"`{name}` must be two-dimensional (rows x columns); got shape {x.shape}")
-    return x
-
-
-def _predict(x: np.ndarray, params: np.ndarray, fallback: float | None) -> np.ndarray:
-    if fallback is not None:
-        out = np.full(x.shape[0], float(fallback))
-        out[~np.isfinite(x).all(axis=1)] = np.nan
-        return out
-    return _irls.expit(x @ np.nan_to_num(params, nan=0.0))
-
 
 def fit(X: Any, y: Any, add_constant: bool = True, *, start: Any = None,
-        names: Sequence[str] | None = None, tol: float = _TOL, maxiter: int = 50) -> LogitFit:
+        names: Sequence[str] | None = None, tol: float = TOL, maxiter: int = 50) -> LogitFit:
     """Maximum-likelihood logit of a 0/1 target on the columns of ``X``.
 
     The model is :math:`P(y_i = 1) = 1 / (1 + e^{-x_i' b})`; the estimate maximises the
@@ -209,27 +96,29 @@ def fit(X: Any, y: Any, add_constant: bool = True, *, start: Any = None,
     [-3.0351, 1.214]
     """
     yy = as_events(y, "y", allow_empty=True)
-    x = _as_matrix(X, "X")
+    x = as_matrix(X, "X")
     if x.size == 0 and x.shape[0] == 0:
         x = np.empty((yy.size, 0))
     if x.shape[0] != yy.size:
         raise InputError(f"`X` and `y` must have the same number of rows; `X` has {x.shape[0]}, "
-                         f"`y` has {yy.size}")
+                         f"`y` has {yy.size}", argument="X", value=X)
     if names is None:
         cols = getattr(X, "columns", None)
         names = [str(c) for c in cols] if cols is not None else [f"x{j + 1}" for j in range(x.shape[1])]
     if len(names) != x.shape[1]:
-        raise InputError(f"`names` must label the {x.shape[1]} columns of `X`; got {len(names)} names")
+        raise InputError(f"`names` must label the {x.shape[1]} columns of `X`; got {len(names)} names",
+                         argument="names", value=names)
     terms = (["constant"] if add_constant else []) + list(names)
     if not terms:
-        raise InputError("`X` has no column and `add_constant` is False: there is nothing to fit")
+        raise InputError("`X` has no column and `add_constant` is False: there is nothing to fit",
+                         argument="X", value=X)
     ok = ~np.isnan(yy)
     if x.shape[1]:
         ok &= ~np.isnan(x).any(axis=1)
     dropped = int(yy.size - ok.sum())
     if not ok.any():
         raise InputError(f"`X` and `y` have no complete row: each of the {yy.size} rows has a missing "
-                         f"value in `y` or in a column of `X`")
+                         f"value in `y` or in a column of `X`", argument="X", value=X)
     if dropped:
         x, yy = x[ok], yy[ok]
     if add_constant:
@@ -239,90 +128,11 @@ def fit(X: Any, y: Any, add_constant: bool = True, *, start: Any = None,
         b0 = np.asarray(start, dtype=float).reshape(-1)
         if b0.size != len(terms):
             raise InputError(f"`start` must hold {len(terms)} values (one per term, constant first); "
-                             f"got {b0.size}")
+                             f"got {b0.size}", argument="start", value=start)
     notes = [f"dropped {dropped} of {dropped + yy.size} rows with a missing value in y or X"] if dropped \
         else []
     return fit_complete(x, yy, terms, add_constant=add_constant, start=b0, tol=tol, maxiter=maxiter,
                         notes=notes, dropped=dropped)
-
-
-def fit_complete(x: np.ndarray, y: np.ndarray, terms: Sequence[str], *, add_constant: bool = True,
-                 start: np.ndarray | None = None, tol: float = _TOL, maxiter: int = 50,
-                 need_cov: bool = True, notes: list[str] | None = None, dropped: int = 0) -> LogitFit:
-    """:func:`fit` on complete rows of a design matrix that already holds its constant column."""
-    notes = list(notes or [])
-    n, k = x.shape
-    nan_k = np.full(k, np.nan)
-    share = float(y.mean())
-    if share in (0.0, 1.0):
-        notes.append(f"every one of the {n} usable y is {int(share)}: a logit has no finite estimate; "
-                     f"the forecast falls back to the majority share {share:g}")
-        return LogitFit(nan_k, nan_k.copy(), 0.0, False, tuple(notes), tuple(terms), 0, n, dropped,
-                        0.0, share, None, add_constant)
-    keep = _irls.independent_columns(x)
-    if not keep.all():
-        for j in np.flatnonzero(~keep):
-            notes.append(f"term {terms[j]!r} dropped: it is constant or a linear combination of earlier "
-                         f"terms on the {n} rows used (estimate reported as NaN)")
-        x = x[:, keep]
-    if start is not None:
-        b0 = np.nan_to_num(np.asarray(start, dtype=float)[keep], nan=0.0)
-    else:
-        b0 = _default_start(x, share, add_constant and bool(keep[0]))
-    res = _irls.newton(x, y, b0, tol=tol, maxiter=maxiter, need_hessian=need_cov)
-    penalty = 0.0
-    if res.diverging:
-        eta = x @ res.params
-        perfect = int(np.sum(np.where(y > 0.5, eta, -eta) > _irls.SATURATED_ETA))
-        pen = _ridge(x, add_constant and bool(keep[0]))
-        res = _irls.newton(x, y, _default_start(x, share, add_constant and bool(keep[0])), penalty=pen,
-                           tol=tol, maxiter=max(maxiter, 100), need_hessian=need_cov,
-                           watch_separation=False)
-        penalty = RIDGE
-        notes.append(f"perfect or quasi-perfect separation: {perfect} of {n} rows are fitted with "
-                     f"probability 0 or 1 while the estimates grow without bound (no finite maximum-"
-                     f"likelihood estimate); estimates come from a ridge-penalised fit ({RIDGE:g} x "
-                     f"variance x coefficient squared per term, constant unpenalised), shrunk towards "
-                     f"0, with approximate standard errors")
-    if not res.converged:
-        notes.append(f"Newton-Raphson did not converge in {res.iterations} iterations; the estimates "
-                     f"are the last iterate")
-    params = nan_k.copy()
-    params[keep] = res.params
-    bse = nan_k.copy()
-    cov = None
-    if res.hessian is not None:
-        c = _irls.inverse_pd(res.hessian)
-        cov = np.full((k, k), np.nan)
-        cov[np.ix_(keep, keep)] = c
-        with np.errstate(invalid="ignore"):
-            bse[keep] = np.sqrt(np.diag(c))
-    return LogitFit(params, bse, res.llf, res.converged, tuple(notes), tuple(terms), res.iterations, n,
-                    dropped, penalty, None, cov, add_constant)
-
-
-def _default_start(x: np.ndarray, share: float, has_constant: bool) -> np.ndarray:
-    b0 = np.zeros(x.shape[1])
-    if has_constant:
-        b0[0] = math.log(share / (1.0 - share))
-    return b0
-
-
-def _ridge(x: np.ndarray, has_constant: bool) -> np.ndarray:
-    if has_constant:
-        pen = RIDGE * x.var(axis=0)
-        pen[0] = 0.0
-    else:
-        pen = RIDGE * np.mean(x * x, axis=0)
-    return pen
-
-
-def coefficient_table(res: LogitFit):
-    """Coefficient table of a fit as a pandas DataFrame with columns term, estimate, std_error, z, p."""
-    import pandas as pd
-
-    return pd.DataFrame({"term": list(res.terms), "estimate": res.params, "std_error": res.bse,
-                         "z": res.z, "p": res.pvalues})
 
 
 # ---------------------------------------------------------------------------------------------------
@@ -402,10 +212,11 @@ def forecast(y: Any, *, values: Any = None, predictors: Mapping[str, Any] | None
     yy = as_events(y, "y")
     n = yy.size
     if n < 2:
-        raise InputError(f"`y` must have at least 2 rows to forecast from its past; got {n}")
+        raise InputError(f"`y` must have at least 2 rows to forecast from its past; got {n}", argument="y",
+                         value=y)
     last = last_observed(yy)
     if last < 0:
-        raise InputError(f"`y` has no observed value: all {n} rows are blank (NaN)")
+        raise InputError(f"`y` has no observed value: all {n} rows are blank (NaN)", argument="y", value=y)
     horizon = as_int(horizon, "horizon", minimum=1)
     lags = as_int(lags, "lags", minimum=0)
     harmonics = as_int(harmonics, "harmonics", minimum=0)
@@ -413,25 +224,26 @@ def forecast(y: Any, *, values: Any = None, predictors: Mapping[str, Any] | None
         longest = last - max(lags, 1) + 1
         raise InputError(f"`horizon` is longer than the data: with {last + 1} rows up to the last "
                          f"observation and lags={lags} it can be at most {max(longest, 0)}; "
-                         f"got {horizon}")
+                         f"got {horizon}", argument="horizon", value=horizon)
     if cycle is not None:
         try:
             cyc = float(cycle)
         except (TypeError, ValueError) as exc:
-            raise InputError(f"`cycle` must be a positive number of periods; got {cycle!r}") from exc
+            raise InputError(f"`cycle` must be a positive number of periods; got {cycle!r}", argument="cycle",
+                             value=cycle) from exc
         if not (math.isfinite(cyc) and cyc > 0.0):
-            raise InputError(f"`cycle` must be a positive number of periods; got {cycle!r}")
+            raise InputError(f"`cycle` must be a positive number of periods; got {cycle!r}", argument="cycle",
+                             value=cycle)
         cycle = cyc
     if weekday and dates is None:
-        raise InputError("`weekday` needs `dates`; got weekday=True with dates=None")
+        raise InputError("`weekday` needs `dates`; got weekday=True with dates=None", argument="dates",
+                         value=dates)
     every = parse_refit(refit)
     if train_size is not None:
         train_size = as_int(train_size, "train_size", minimum=1, maximum=n)
     design = _design.build(yy, values=values, predictors=predictors, known_ahead=known_ahead,
                            dates=dates, horizon=horizon, lags=lags, cycle=cycle, harmonics=harmonics,
                            weekday=bool(weekday), trend=bool(trend))
-    from sheetfns._logit.rolling import run
-
     return run(yy, design, last=last, horizon=horizon, train_size=train_size, every=every)
 
 
@@ -439,7 +251,7 @@ def parse_refit(refit: Any) -> int:
     """``"fixed"`` -> 0, ``"roll"`` -> 1, ``"roll N"`` -> N (refit every N origins)."""
     expected = "`refit` must be 'fixed', 'roll' or 'roll N' (N a whole number >= 1)"
     if not isinstance(refit, str):
-        raise InputError(f"{expected}; got {refit!r}")
+        raise InputError(f"{expected}; got {refit!r}", argument="refit", value=refit)
     words = refit.strip().lower().split()
     if words == ["fixed"]:
         return 0
@@ -447,4 +259,4 @@ def parse_refit(refit: Any) -> int:
         return 1
     if len(words) == 2 and words[0] == "roll" and words[1].isdigit() and int(words[1]) >= 1:
         return int(words[1])
-    raise InputError(f"{expected}; got {refit!r}")
+    raise InputError(f"{expected}; got {refit!r}", argument="refit", value=refit)

@@ -56,8 +56,6 @@ class Split:
         Rows in the training period, the validation period, and after the last observation.
     n : int
         All rows (``train_size + valid_size + future_size``).
-    first_valid : int
-        0-based position of the first validation row (equal to ``train_size``).
     first_valid_date, last_observed_date : Timestamp or None
     frequency : str or None
         ``'daily'``, ``'weekly'``, ``'monthly'``, ``'quarterly'`` or None (see :func:`infer_frequency`).
@@ -73,7 +71,6 @@ class Split:
     valid_size: int
     future_size: int
     n: int
-    first_valid: int
     first_valid_date: Any = None
     last_observed_date: Any = None
     frequency: str | None = None
@@ -126,7 +123,8 @@ def as_dates(values: Any, name: str = "dates") -> np.ndarray:
         try:
             seq = list(values)
         except TypeError as exc:
-            raise InputError(f"`{name}` must be a sequence of dates; got {values!r}") from exc
+            raise InputError(f"`{name}` must be a sequence of dates; got {values!r}", argument=name,
+                             value=values) from exc
         if seq and isinstance(seq[0], (list, tuple)):      # a one-column spreadsheet range
             seq = [v[0] if isinstance(v, (list, tuple)) and len(v) == 1 else v for v in seq]
         types = set(map(type, seq))
@@ -135,26 +133,29 @@ def as_dates(values: Any, name: str = "dates") -> np.ndarray:
             v = seq[i]
             blank = v is None or (isinstance(v, float) and math.isnan(v)) or repr(v) == "NaT"
             what = "a blank" if blank else repr(v)
-            raise InputError(f"`{name}` must hold a date in every row; got {what} in row {i + 1}")
-        import pandas as pd
+            raise InputError(f"`{name}` must hold a date in every row; got {what} in row {i + 1}",
+                             argument=name, value=v, location=i + 1)
+        import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
         try:
             idx = pd.DatetimeIndex(seq)
         except (TypeError, ValueError):      # zone-aware values of several zones
             try:
                 idx = pd.DatetimeIndex([pd.Timestamp(v).tz_localize(None) for v in seq])
             except (TypeError, ValueError) as exc:
-                raise InputError(f"`{name}` must hold dates; {exc}") from exc
+                raise InputError(f"`{name}` must hold dates; {exc}", argument=name, value=values) from exc
         if idx.tz is not None:               # keep the wall-clock time
             idx = idx.tz_localize(None)
         arr = idx.to_numpy().astype("datetime64[us]")
     if arr.ndim == 2 and 1 in arr.shape:
         arr = arr.reshape(-1)
     if arr.ndim != 1:
-        raise InputError(f"`{name}` must be one-dimensional; got shape {arr.shape}")
+        raise InputError(f"`{name}` must be one-dimensional; got shape {arr.shape}", argument=name,
+                         value=values)
     nat = np.isnat(arr)
     if nat.any():
-        raise InputError(f"`{name}` must hold a date in every row; got a blank in row "
-                         f"{int(np.flatnonzero(nat)[0]) + 1}")
+        i = int(np.flatnonzero(nat)[0])
+        raise InputError(f"`{name}` must hold a date in every row; got a blank in row {i + 1}",
+                         argument=name, value=None, location=i + 1)
     return arr
 
 
@@ -166,9 +167,10 @@ def _check_order(d: np.ndarray, name: str) -> None:
         i = int(bad[0]) + 1
         if d[i] == d[i - 1]:
             raise PartitionError(f"`{name}` has duplicate dates: rows {i} and {i + 1} are both "
-                                 f"{_show_date(d[i])}")
+                                 f"{_show_date(d[i])}", argument=name, value=d[i], location=i + 1)
         raise PartitionError(f"`{name}` dates must be in increasing order; row {i + 1} "
-                             f"({_show_date(d[i])}) is earlier than row {i} ({_show_date(d[i - 1])})")
+                             f"({_show_date(d[i])}) is earlier than row {i} ({_show_date(d[i - 1])})",
+                             argument=name, value=d[i], location=i + 1)
 
 
 def _month_parts(d: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
@@ -245,7 +247,7 @@ def default_cycle(freq: str | None) -> float | None:
 def _gaps(d: np.ndarray, freq: str | None) -> tuple[Gap, ...]:
     if freq is None or d.size < 2:
         return ()
-    import pandas as pd
+    import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
     steps = _steps(d, freq)
     where = np.flatnonzero(steps > 1)
     return tuple(Gap(row=int(i) + 2, before=pd.Timestamp(d[i]), after=pd.Timestamp(d[i + 1]),
@@ -261,7 +263,7 @@ def _validation_date(validation: Any) -> np.datetime64 | None:
             return np.datetime64(_dt.datetime.fromisoformat(validation.strip()), "us")
         except ValueError:
             raise InputError(f"`validation` must be a number of periods or a date; got "
-                             f"{validation!r}") from None
+                             f"{validation!r}", argument="validation", value=validation) from None
     if _is_date_scalar(validation):
         if isinstance(validation, _dt.datetime) and validation.tzinfo is not None:
             validation = validation.replace(tzinfo=None)
@@ -272,14 +274,16 @@ def _validation_date(validation: Any) -> np.datetime64 | None:
 
 def _validation_count(validation: Any) -> int:
     if isinstance(validation, (bool, np.bool_)):
-        raise InputError(f"`validation` must be a number of periods or a date; got {validation!r}")
+        raise InputError(f"`validation` must be a number of periods or a date; got {validation!r}",
+                         argument="validation", value=validation)
     try:
         f = float(validation)
     except (TypeError, ValueError):
         raise InputError(f"`validation` must be a number of periods or a date; got "
-                         f"{validation!r}") from None
+                         f"{validation!r}", argument="validation", value=validation) from None
     if not math.isfinite(f) or f != int(f):
-        raise InputError(f"`validation` must be a whole number of periods or a date; got {validation!r}")
+        raise InputError(f"`validation` must be a whole number of periods or a date; got {validation!r}",
+                         argument="validation", value=validation)
     return int(f)
 
 
@@ -322,36 +326,43 @@ def split(index: Any, validation: Any = None, *, events: Any = None) -> Split:
     if isinstance(index, (int, np.integer)) and not isinstance(index, (bool, np.bool_)):
         n = int(index)
         if n < 0:
-            raise InputError(f"`index` must be a number of rows >= 0 or a sequence of dates; got {n}")
+            raise InputError(f"`index` must be a number of rows >= 0 or a sequence of dates; got {n}",
+                             argument="index", value=index)
     else:
         dates = as_dates(index, "index")
         n = dates.size
         _check_order(dates, "index")
     if n < 2:
-        raise InputError(f"`index` must have at least 2 rows to split; got {n}")
+        raise InputError(f"`index` must have at least 2 rows to split; got {n}", argument="index",
+                         value=index)
     ev = None
     n_obs = n
     if events is not None:
         ev = as_events(events, "events", allow_empty=True)
         if ev.size != n:
-            raise InputError(f"`events` has {ev.size} rows but `index` has {n}")
+            raise InputError(f"`events` has {ev.size} rows but `index` has {n}", argument="events",
+                             value=events)
         n_obs = last_observed(ev) + 1
         if n_obs == 0:
-            raise InputError(f"`events` has no observed values (all {n} rows are blank)")
+            raise InputError(f"`events` has no observed values (all {n} rows are blank)",
+                             argument="events", value=events)
 
     notes: list[str] = []
     vdate = _validation_date(validation)
     if vdate is not None:
         if dates is None:
             raise InputError(f"`validation` is a date ({_show_date(vdate)}) but `index` is a row count; "
-                             f"give one date per row to split by date")
+                             f"give one date per row to split by date", argument="validation",
+                             value=validation)
         train = int(np.searchsorted(dates, vdate, side="left"))
         if train == 0:
             raise PartitionError(f"`validation` {_show_date(vdate)} leaves no training rows: the first "
-                                 f"date is {_show_date(dates[0])} (row 1)")
+                                 f"date is {_show_date(dates[0])} (row 1)", argument="validation",
+                                 value=validation)
         if train >= n_obs:
             raise PartitionError(f"`validation` {_show_date(vdate)} leaves no validation rows: the last "
-                                 f"observed date is {_show_date(dates[n_obs - 1])} (row {n_obs})")
+                                 f"observed date is {_show_date(dates[n_obs - 1])} (row {n_obs})",
+                                 argument="validation", value=validation)
         if dates[train] != vdate:
             notes.append(f"no row is dated {_show_date(vdate)}; validation starts at the next date, "
                          f"{_show_date(dates[train])} (row {train + 1})")
@@ -361,16 +372,17 @@ def split(index: Any, validation: Any = None, *, events: Any = None) -> Split:
         else:
             k = _validation_count(validation)
         if k < 1:
-            raise PartitionError(f"`validation` {k} leaves no validation rows: give at least 1 period")
+            raise PartitionError(f"`validation` {k} leaves no validation rows: give at least 1 period",
+                                 argument="validation", value=validation)
         if k >= n_obs:
             raise PartitionError(f"`validation` {k} leaves no training rows: there are {n_obs} observed "
-                                 f"rows (rows 1 to {n_obs})")
+                                 f"rows (rows 1 to {n_obs})", argument="validation", value=validation)
         train = n_obs - k
 
     freq = gaps = None
     first_date = last_date = None
     if dates is not None:
-        import pandas as pd
+        import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
         freq = _frequency(dates)
         gaps = _gaps(dates, freq)
         first_date, last_date = pd.Timestamp(dates[train]), pd.Timestamp(dates[n_obs - 1])
@@ -390,10 +402,10 @@ def split(index: Any, validation: Any = None, *, events: Any = None) -> Split:
         if np.isnan(tr).all():
             shown = _show_date(vdate) if vdate is not None else validation
             raise PartitionError(f"`validation` {shown} leaves no observed training rows: rows 1 "
-                                 f"to {train} of `events` are blank")
+                                 f"to {train} of `events` are blank", argument="validation", value=validation)
         counts = {"train_events": int(np.nansum(tr)), "valid_events": int(np.nansum(va)),
                   "train_observed": int(np.count_nonzero(~np.isnan(tr))),
                   "valid_observed": int(np.count_nonzero(~np.isnan(va)))}
     return Split(train_size=train, valid_size=n_obs - train, future_size=n - n_obs, n=n,
-                 first_valid=train, first_valid_date=first_date, last_observed_date=last_date,
+                 first_valid_date=first_date, last_observed_date=last_date,
                  frequency=freq, gaps=gaps or (), notes=tuple(notes), **counts)

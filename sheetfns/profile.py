@@ -73,17 +73,20 @@ def rate_table(dates: Any, events: Any, by: str = "month") -> pd.DataFrame:
     >>> t.loc[1, [2023, 2024, "all years", "events", "rows"]].tolist()
     [0.5, 1.0, 0.6666666666666666, 2.0, 3.0]
     """
-    import pandas as pd
+    import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
 
     if by not in BY:
-        raise InputError(f"`by` must be one of {', '.join(repr(b) for b in BY)}; got {by!r}")
+        raise InputError(f"`by` must be one of {', '.join(repr(b) for b in BY)}; got {by!r}", argument="by",
+                         value=by)
     d = as_dates(dates, "dates")
     ev = as_events(events, "events")
     if ev.size != d.size:
-        raise InputError(f"`events` has {ev.size} rows but `dates` has {d.size}")
+        raise InputError(f"`events` has {ev.size} rows but `dates` has {d.size}", argument="events",
+                         value=events)
     obs = ~np.isnan(ev)
     if not obs.any():
-        raise InputError(f"`events` has no observed values (all {ev.size} rows are blank)")
+        raise InputError(f"`events` has no observed values (all {ev.size} rows are blank)",
+                         argument="events", value=events)
     period, year, labels = _calendar(d[obs], by)
     hit = ev[obs]
     first, last = int(year.min()), int(year.max())
@@ -126,17 +129,19 @@ def seasonal_trend(table: pd.DataFrame, degree: int = 2) -> pd.Series:
     Series named ``'trend'`` on the table's index; ``attrs['coefficients']`` holds
     ``(b0, b1, ..., bk)`` for x = period number (1-based).
     """
-    import pandas as pd
+    import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
 
     if not isinstance(table, pd.DataFrame) or ALL_YEARS not in table or ROWS not in table:
         raise InputError(f"`table` must be a table made by rate_table (with the columns "
-                         f"{ALL_YEARS!r} and {ROWS!r}); got {type(table).__name__}")
+                         f"{ALL_YEARS!r} and {ROWS!r}); got {type(table).__name__}", argument="table",
+                         value=table)
     k = as_int(degree, "degree", minimum=0)
     rows = table[ROWS].to_numpy(dtype=float)
     share = table[ALL_YEARS].to_numpy(dtype=float)
     use = rows > 0
     if use.sum() < k + 1:
-        raise InputError(f"`degree` {k} needs at least {k + 1} periods with data; got {int(use.sum())}")
+        raise InputError(f"`degree` {k} needs at least {k + 1} periods with data; got {int(use.sum())}",
+                         argument="degree", value=degree)
     x = np.arange(1, len(table) + 1, dtype=float)
     poly = np.polynomial.Polynomial.fit(x[use], share[use], k, w=np.sqrt(rows[use]))
     coefs = tuple(float(c) for c in poly.convert().coef)

@@ -8,14 +8,18 @@ Conventions (one for the module)
   probabilities), options keyword-only where they are new. ``actual`` holds 0, 1 or NaN;
   probabilities lie in [0, 1]. Rows where any input is NaN are skipped (a blank is not scored).
 * Scores are keyed by the snake_case trade terms of ``SCORE_KEYS``; ``SCORE_INFO`` says for each
-  whether higher or lower is better, its range and its perfect and no-skill values.
+  whether higher or lower is better, its range and its perfect and no-skill values, and holds its
+  ``definition``: the function whose docstring gives the score's formula, range, perfect and
+  no-skill values, synonyms and defining source (``help(SCORE_INFO["peirce_skill"].definition)``).
 * A score whose denominator is zero is NaN, and one :class:`UndefinedScoreWarning` (a
   ``RuntimeWarning``) per call names every such score. Never an exception.
 * Bad input raises :class:`~sheetfns.errors.InputError` naming the argument and the value.
 
-This module only re-exports; the work is in ``_categorical``, ``_probabilistic`` and
-``_significance``. pandas and scipy are imported only inside the functions that need them
-(``brier_decomposition`` and ``diebold_mariano``).
+This module only re-exports; the work is in :mod:`sheetfns._scoring` (``contingency``: the
+definitions of the categorical scores; ``categorical``, ``probabilistic``, ``significance``;
+``registry``). pandas and scipy are imported only inside the functions that need them
+(``brier_decomposition`` and ``diebold_mariano``), so that importing the scores for a spreadsheet
+function stays light.
 """
 from __future__ import annotations
 

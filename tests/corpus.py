@@ -3,11 +3,12 @@
 Built with xlsxwriter (a general-purpose writer), post-processed where a feature needs parts xlsxwriter
 does not write (a calculation chain, an unusual namespace prefix), converted with LibreOffice headless
 (a hand-written flat ODF spreadsheet, and an xlsxwriter workbook re-saved by LibreOffice), plus the
-Excel-saved ``.xlsm`` that ships with xlwings when it is installed. Between them they hold: a chart sheet
-and an embedded chart, an image, comments, data validation, conditional formatting, defined names (global
-and sheet-scoped), a hidden sheet, an active sheet that is not the first, a macro part, a table, frozen
-panes, the 1904 date system, many shared strings, a sheet with 16,384 columns, formulas reading the sheet
-tocsin will write, a calculation chain and user custom document properties.
+Excel-saved ``.xlsm`` that ships with xlwings (a tool of the ``test`` extra). Between them they hold:
+a chart sheet and an embedded chart, an image, comments, data validation, conditional formatting,
+defined names (global and sheet-scoped), a hidden sheet, an active sheet that is not the first, a
+macro part, a table, frozen panes, the 1904 date system, many shared strings, a sheet with 16,384
+columns, formulas reading the sheet tocsin will write, a calculation chain and user custom document
+properties.
 
 All content is invented for the tests.
 """
@@ -25,6 +26,7 @@ from pathlib import Path
 
 import libreoffice
 import xlsxwriter
+import xlwings
 
 FORMULA_TARGET = "'Fc'!B4"  # the first value cell of the sheet the tests write (see test_package.SPEC)
 _XLWINGS_XLSM = "xlwings/quickstart.xlsm"
@@ -164,16 +166,7 @@ def _vba_project(folder: Path) -> Path:
 
 
 def _xlwings_xlsm() -> Path | None:
-    try:
-        import xlwings  # noqa: F401  (only its data file is used)
-    except Exception:  # noqa: BLE001 - xlwings may fail to import off Windows in odd setups
-        return None
-    import importlib.util
-
-    spec = importlib.util.find_spec("xlwings")
-    if spec is None or not spec.origin:
-        return None
-    path = Path(spec.origin).parent / "quickstart.xlsm"
+    path = Path(xlwings.__file__).parent / "quickstart.xlsm"     # only its data file is used
     return path if path.exists() else None
 
 

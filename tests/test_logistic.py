@@ -19,15 +19,14 @@ import warnings
 import numpy as np
 import pandas as pd
 import pytest
+import statsmodels.api as sm
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
+from statsmodels.discrete.tests.results import results_discrete
 
 from sheetfns import logistic
 from sheetfns._logit.design import build, time_axis
 from sheetfns.errors import InputError
-
-sm = pytest.importorskip("statsmodels.api")
-
 
 # ---------------------------------------------------------------------------------------------------
 # helpers: a slow, obviously correct reference written here
@@ -39,6 +38,8 @@ def _shift(a: np.ndarray, k: int) -> np.ndarray:
 
 def _sm_fit(x: np.ndarray, y: np.ndarray):
     with warnings.catch_warnings():
+        # the reference library warns (convergence, separation, overflow) on the data made to test
+        # those very cases; our side of each comparison runs under the suite's warnings-are-errors
         warnings.simplefilter("ignore")
         return sm.Logit(y, x).fit(disp=0, maxiter=100)
 
@@ -87,8 +88,7 @@ def test_spector_matches_stata_to_full_precision():
     # Stata 11 results stored with 11+ digits in statsmodels' own tests
     # (statsmodels/discrete/tests/results/results_discrete.py, class Spector, order GPA, TUCE, PSI,
     # constant). Data: statsmodels.datasets.spector.
-    results = pytest.importorskip("statsmodels.discrete.tests.results.results_discrete")
-    stata = results.Spector.logit
+    stata = results_discrete.Spector.logit
     data = sm.datasets.spector.load_pandas()
     res = logistic.fit(data.exog[["GPA", "TUCE", "PSI"]], data.endog)
     order = [1, 2, 3, 0]  # ours: constant first

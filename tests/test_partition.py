@@ -39,7 +39,6 @@ def test_calendar_arithmetic_of_the_reference_split():
     dates = days("2000-01-03", "2011-10-31")
     by_date = split(dates, dt.date(2010, 1, 3))
     assert (by_date.train_size, by_date.valid_size, by_date.future_size) == (3653, 667, 0)
-    assert by_date.first_valid == 3653
     assert by_date.first_valid_date == pd.Timestamp("2010-01-03")
     assert by_date.last_observed_date == pd.Timestamp("2011-10-31")
     assert by_date.frequency == "daily" and by_date.gaps == () and by_date.notes == ()

@@ -299,8 +299,9 @@ def test_both_backends_read_the_samples_identically():
             np.testing.assert_array_equal(a.columns[k], b.columns[k])
         assert list(a.raw[cols[0]]) == list(b.raw[cols[0]])
         # against openpyxl's own cell values, read independently
-        ws = load_workbook(path, read_only=True)[sheet]
-        cells = [row for row in ws.iter_rows(min_row=2, values_only=True)]
+        wb = load_workbook(path, read_only=True)
+        cells = [row for row in wb[sheet].iter_rows(min_row=2, values_only=True)]
+        wb.close()                                      # read-only workbooks keep the file open
         assert a.nrows == len(cells)
         for j, k in enumerate(cols, start=1):
             want = [np.nan if row[j] is None else float(row[j]) for row in cells]

@@ -23,6 +23,7 @@ import math
 import numpy as np
 import pandas as pd
 import pytest
+import sklearn.metrics as sklearn_metrics
 from test_refresh import (
     GDP_JOB,
     TABLE_COL,
@@ -36,8 +37,6 @@ from test_refresh import (
 )
 
 from sheetfns.scorecard import METHOD_LABELS, SCORE_ROWS
-
-sklearn_metrics = pytest.importorskip("sklearn.metrics")
 
 COSTLY = {**GDP_JOB, "job": "gdp fall costly", "cost_false_alarm": 1, "cost_miss": 9}
 LABEL_KEY = {label: key for key, label in METHOD_LABELS.items()}

@@ -24,10 +24,8 @@ from xml.etree import ElementTree
 import pytest
 from test_watch import wait_for
 
-pytest.importorskip("watcher.xlsx.package", reason="the package writer has not landed yet")
-
-from watcher.watch.log import WatchLog  # noqa: E402
-from watcher.watch.service import Watcher  # noqa: E402
+from watcher.watch.log import WatchLog
+from watcher.watch.service import Watcher
 
 ROOT = Path(__file__).resolve().parent.parent
 SAMPLE = ROOT / "sample_workbooks" / "island_ferry.xlsx"

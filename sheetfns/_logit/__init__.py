@@ -1,1 +1,2 @@
-"""Internals of the logistic model: the design matrix, the Newton solver and the refit schemes."""
+"""Internals of the logistic model: the result types, one estimation with its checks, the Newton
+solver, the design matrix and the refit schemes (``sheetfns.logistic`` is the public face)."""

@@ -73,15 +73,17 @@ def shift(a: np.ndarray, k: int) -> np.ndarray:
 
 def time_axis(dates: Any, n: int) -> TimeAxis:
     """Read ``dates`` (datetimes, date strings, or spreadsheet serial day numbers) into a time axis."""
-    import pandas as pd
+    import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
 
     raw = dates.to_numpy() if hasattr(dates, "to_numpy") else np.asarray(dates, dtype=object)
     if raw.ndim != 1:
         raw = raw.reshape(-1) if raw.ndim == 2 and 1 in raw.shape else raw
     if raw.ndim != 1:
-        raise InputError(f"`dates` must be one-dimensional; got shape {raw.shape}")
+        raise InputError(f"`dates` must be one-dimensional; got shape {raw.shape}", argument="dates",
+                         value=dates)
     if raw.size != n:
-        raise InputError(f"`dates` must have one date per row of `y`; got {raw.size} dates for {n} rows")
+        raise InputError(f"`dates` must have one date per row of `y`; got {raw.size} dates for {n} rows",
+                         argument="dates", value=dates)
     try:
         if raw.dtype.kind in "fiu" or (raw.dtype == object and all(
                 isinstance(v, (int, float, np.number)) and not isinstance(v, bool)
@@ -96,13 +98,14 @@ def time_axis(dates: Any, n: int) -> TimeAxis:
             try:
                 pd.to_datetime([v])
             except (TypeError, ValueError, OverflowError):
-                raise InputError(f"`dates` must hold dates; got {v!r} at position {i + 1}") from exc
-        raise InputError(f"`dates` must hold dates; {exc}") from exc
+                raise InputError(f"`dates` must hold dates; got {v!r} at position {i + 1}",
+                                 argument="dates", value=v, location=i + 1) from exc
+        raise InputError(f"`dates` must hold dates; {exc}", argument="dates", value=dates) from exc
     if idx.tz is not None:
         idx = idx.tz_localize(None)
     valid = np.flatnonzero(~np.asarray(idx.isna()))
     if valid.size == 0:
-        raise InputError("`dates` holds no date (every entry is blank)")
+        raise InputError("`dates` holds no date (every entry is blank)", argument="dates", value=dates)
     first = idx[valid[0]]
     days = np.asarray((idx - first) / pd.Timedelta(days=1), dtype=float)
     months = (np.asarray(idx.year, dtype=float) - first.year) * 12.0 + (
@@ -123,7 +126,8 @@ def time_axis(dates: Any, n: int) -> TimeAxis:
     elif gap > 0.0:
         tau, unit = days / gap, f"periods of {gap:g} days since the first date"
     else:
-        raise InputError("`dates` must advance: the median gap between consecutive dates is 0 days")
+        raise InputError("`dates` must advance: the median gap between consecutive dates is 0 days",
+                         argument="dates", value=dates)
     return TimeAxis(tau, weekday, unit)
 
 
@@ -131,14 +135,15 @@ def _named(mapping: Mapping[str, Any] | None, arg: str, n: int) -> list[tuple[st
     if mapping is None:
         return []
     if not isinstance(mapping, Mapping):
-        raise InputError(f"`{arg}` must be a mapping of name -> 1-D array; got {type(mapping).__name__}")
+        raise InputError(f"`{arg}` must be a mapping of name -> 1-D array; got {type(mapping).__name__}",
+                         argument=arg, value=mapping)
     out = []
     for name, col in mapping.items():
         label = f"{arg}[{name!r}]"
         arr = as_series(col, label)
         if arr.size != n:
             raise InputError(f"`{label}` must have one value per row of `y`; got {arr.size} values "
-                             f"for {n} rows")
+                             f"for {n} rows", argument=label, value=col)
         out.append((str(name), arr))
     return out
 
@@ -161,7 +166,7 @@ def build(y: np.ndarray, *, values: Any = None, predictors: Mapping[str, Any] | 
         v = as_series(values, "values")
         if v.size != n:
             raise InputError(f"`values` must have one value per row of `y`; got {v.size} values for "
-                             f"{n} rows")
+                             f"{n} rows", argument="values", value=values)
         cols.append(shift(v, horizon))
         terms.append(f"value t-{horizon}")
     for name, arr in _named(predictors, "predictors", n):
@@ -197,8 +202,10 @@ def build(y: np.ndarray, *, values: Any = None, predictors: Mapping[str, Any] | 
     seen: set[str] = set()
     for t in terms:
         if t in seen or t == "constant":
+            arg = ("known_ahead" if t in map(str, known_ahead or {}) else
+                   "predictors" if t in map(str, predictors or {}) else None)
             raise InputError(f"term names must be unique and not 'constant'; got {t!r} twice or "
-                             f"reserved (rename the predictor)")
+                             f"reserved (rename the predictor)", argument=arg, value=t)
         seen.add(t)
     x = np.empty((n, 1 + len(cols)))
     x[:, 0] = 1.0

@@ -48,11 +48,6 @@ def expit(eta: np.ndarray) -> np.ndarray:
         return 1.0 / (1.0 + np.exp(-eta))
 
 
-def loglik(y: np.ndarray, eta: np.ndarray) -> float:
-    """Bernoulli log-likelihood of 0/1 ``y`` under the logit link: sum(y eta - log(1 + e^eta))."""
-    return float(y @ eta - np.logaddexp(0.0, eta).sum())
-
-
 def solve_pd(h: np.ndarray, g: np.ndarray) -> np.ndarray:
     """Solve ``h d = g`` for a symmetric positive (semi-)definite ``h``.
 

@@ -11,7 +11,7 @@ schemes). The work shared between origins:
   remove a class), so later refits skip those checks and run warm-started Newton from the previous
   estimate: after one new row the previous estimate is within O(1/n) of the new one and Newton's
   quadratic convergence needs one or two steps. A refit that fails to converge falls back to the full
-  checks of :func:`sheetfns.logistic.fit_complete`.
+  checks of :func:`sheetfns._logit.estimate.fit_complete`.
 """
 from __future__ import annotations
 
@@ -21,15 +21,9 @@ import numpy as np
 
 from sheetfns._logit import irls as _irls
 from sheetfns._logit.design import Design
+from sheetfns._logit.estimate import TOL, fit_complete, min_rows
+from sheetfns._logit.results import LogitFit, LogitForecast, coefficient_table
 from sheetfns.errors import InputError
-from sheetfns.logistic import (
-    _TOL,
-    LogitFit,
-    LogitForecast,
-    coefficient_table,
-    fit_complete,
-    min_rows,
-)
 
 #: Convergence of the warm-started refits: the bound on the largest change of a fitted linear
 #: predictor in the last step. Newton's error after that step is of order C tol**2 with C about 0.1
@@ -67,7 +61,7 @@ class _Roller:
         f = self._warm(m) if self.clean and not need_cov and self.b is not None else None
         if f is None:
             f = fit_complete(self.xe[:m], self.ye[:m], self.terms, start=self.b,
-                             tol=_TOL, need_cov=need_cov)
+                             tol=TOL, need_cov=need_cov)
             self.counts["checked"] += 1
             if need_cov:
                 self.checked.add(m)
@@ -187,7 +181,8 @@ def run(y: np.ndarray, design: Design, *, last: int, horizon: int, train_size: i
         m0 = int(window(t0 - horizon))
         if m0 < k + 1:
             raise InputError(f"`train_size` leaves {m0} usable rows for {k} terms at the first "
-                             f"validation origin; need at least {k + 1}; got train_size={train_size}")
+                             f"validation origin; need at least {k + 1}; got train_size={train_size}",
+                             argument="train_size", value=train_size)
         fixed_rows = _rows(0, min(t0 - horizon, last))
         if every == 0:
             notes.append(f"fixed: coefficients estimated once on {fixed_rows} (the rows observed at the "

@@ -22,6 +22,13 @@ class UndefinedScoreWarning(RuntimeWarning):
     """
 
 
+def ratio(num: float, den: float) -> float:
+    """``num / den``; NaN when the denominator is zero or either part is NaN (an undefined score)."""
+    if den == 0 or math.isnan(den) or math.isnan(num):
+        return math.nan
+    return num / den
+
+
 class Quotient:
     """Collects ``num / den`` divisions; a zero (or NaN) denominator gives NaN and is remembered,
     so one call warns once, naming every undefined score."""
@@ -30,10 +37,10 @@ class Quotient:
         self.undefined: list[str] = []
 
     def __call__(self, name: str, num: float, den: float) -> float:
-        if den == 0 or math.isnan(den) or math.isnan(num):
+        out = ratio(num, den)
+        if math.isnan(out):
             self.undefined.append(name)
-            return math.nan
-        return num / den
+        return out
 
     def mark(self, name: str) -> float:
         """Record ``name`` as undefined and return NaN."""

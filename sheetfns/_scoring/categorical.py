@@ -12,15 +12,12 @@ from typing import Any, NamedTuple
 import numpy as np
 
 from sheetfns._scoring.base import Quotient, paired_events
+from sheetfns._scoring.contingency import DEFINITIONS
 from sheetfns.checks import _show, as_nonnegative
 from sheetfns.errors import InputError
 
-CATEGORICAL_KEYS: tuple[str, ...] = (
-    "n", "events", "hits", "false_alarms", "misses", "correct_negatives",
-    "accuracy", "error_rate", "sensitivity", "specificity", "precision", "false_alarm_ratio",
-    "false_alarm_rate", "critical_success_index", "frequency_bias", "f1", "balanced_accuracy",
-    "heidke_skill", "peirce_skill", "gilbert_skill", "odds_ratio", "odds_ratio_skill", "matthews",
-)
+#: The categorical score keys (DESIGN.md section 4), in the order of their definitions.
+CATEGORICAL_KEYS: tuple[str, ...] = tuple(DEFINITIONS)
 
 
 class Confusion(NamedTuple):
@@ -104,56 +101,35 @@ def from_counts(hits: float, false_alarms: float, misses: float, correct_negativ
 
     Notes
     -----
-    *Orientation*: "perfect" is the value of a forecast that is always right; "no skill" the value
-    expected of a forecast issued at random, independently of what happens (where it is fixed).
+    The keys and their formulas. Each score's own docstring (``SCORE_INFO[key].definition``, in
+    :mod:`sheetfns._scoring.contingency`) gives its range, perfect and no-skill values, synonyms
+    and defining source.
 
-    ``n``, ``events`` (a + c), ``hits``, ``false_alarms``, ``misses``, ``correct_negatives``
-        The counts themselves. hits = true positives (TP), false alarms = false positives (FP),
-        misses = false negatives (FN), correct negatives = true negatives (TN).
-    ``accuracy`` = (a + d) / n
-        Proportion correct, PC. Range [0, 1], perfect 1; no-skill value depends on the base rate.
-    ``error_rate`` = (b + c) / n
-        Misclassification rate, 1 - PC. Range [0, 1], perfect 0.
-    ``sensitivity`` = a / (a + c)
-        Probability of detection (POD), hit rate, recall, true positive rate. Range [0, 1],
-        perfect 1.
-    ``specificity`` = d / (b + d)
-        True negative rate, 1 - POFD. Range [0, 1], perfect 1.
-    ``precision`` = a / (a + b)
-        Positive predictive value, success ratio, 1 - FAR. Range [0, 1], perfect 1; no skill: the
-        base rate (a + c) / n.
-    ``false_alarm_ratio`` = b / (a + b)
-        FAR: the share of forecast events that did not happen. Range [0, 1], perfect 0.
-    ``false_alarm_rate`` = b / (b + d)
-        Probability of false detection (POFD), false positive rate, 1 - specificity. Range [0, 1],
-        perfect 0. Not the same thing as the false alarm *ratio*.
-    ``critical_success_index`` = a / (a + b + c)
-        CSI, threat score (TS), Jaccard index. Range [0, 1], perfect 1, 0 when there is no hit.
-    ``frequency_bias`` = (a + b) / (a + c)
-        Bias score: events forecast over events observed. Range [0, inf), unbiased (and perfect) 1;
-        above 1 over-forecasting, below 1 under-forecasting.
-    ``f1`` = 2a / (2a + b + c)
-        F1 score, harmonic mean of precision and sensitivity, Dice coefficient. Range [0, 1],
-        perfect 1.
-    ``balanced_accuracy`` = (sensitivity + specificity) / 2
-        Range [0, 1], perfect 1, no skill 0.5. NaN when either part is undefined.
-    ``heidke_skill`` = 2(ad - bc) / [(a + c)(c + d) + (a + b)(b + d)]
-        Heidke skill score (HSS), Cohen's kappa for 2x2: proportion correct relative to random
-        forecasts with the same marginal totals. Range [-1, 1], perfect 1, no skill 0.
-    ``peirce_skill`` = (ad - bc) / [(a + c)(b + d)] = POD - POFD
-        Peirce skill score (PSS), Hanssen-Kuipers discriminant, true skill statistic (TSS),
-        Youden's J. Range [-1, 1], perfect 1, no skill 0.
-    ``gilbert_skill`` = (a - a_r) / (a + b + c - a_r), with a_r = (a + b)(a + c) / n
-        Gilbert skill score (GSS), equitable threat score (ETS): the CSI corrected for the hits
-        expected by chance. Range [-1/3, 1], perfect 1, no skill 0.
-    ``odds_ratio`` = ad / (bc)
-        Odds ratio (OR, theta). Range [0, inf), no skill 1; infinite for a perfect forecast, so
-        NaN (undefined) whenever b = 0 or c = 0.
-    ``odds_ratio_skill`` = (ad - bc) / (ad + bc) = (OR - 1) / (OR + 1)
-        Odds ratio skill score (ORSS), Yule's Q. Range [-1, 1], perfect 1, no skill 0.
-    ``matthews`` = (ad - bc) / sqrt[(a + b)(a + c)(b + d)(c + d)]
-        Matthews correlation coefficient (MCC), phi coefficient. Range [-1, 1], perfect 1,
-        no skill 0. NaN when a row or column total is 0 (scikit-learn returns 0 there).
+    ===========================  ==========================================================
+    ``n``                        a + b + c + d
+    ``events``                   a + c
+    ``hits``                     a (true positives)
+    ``false_alarms``             b (false positives)
+    ``misses``                   c (false negatives)
+    ``correct_negatives``        d (true negatives)
+    ``accuracy``                 (a + d) / n
+    ``error_rate``               (b + c) / n
+    ``sensitivity``              a / (a + c)  (POD, hit rate, recall)
+    ``specificity``              d / (b + d)
+    ``precision``                a / (a + b)  (success ratio)
+    ``false_alarm_ratio``        b / (a + b)  (FAR)
+    ``false_alarm_rate``         b / (b + d)  (POFD)
+    ``critical_success_index``   a / (a + b + c)  (threat score)
+    ``frequency_bias``           (a + b) / (a + c)
+    ``f1``                       2a / (2a + b + c)
+    ``balanced_accuracy``        (sensitivity + specificity) / 2
+    ``heidke_skill``             2(ad - bc) / [(a + c)(c + d) + (a + b)(b + d)]
+    ``peirce_skill``             (ad - bc) / [(a + c)(b + d)]
+    ``gilbert_skill``            (a - a_r) / (a + b + c - a_r), a_r = (a + b)(a + c) / n
+    ``odds_ratio``               ad / (bc)
+    ``odds_ratio_skill``         (ad - bc) / (ad + bc)  (Yule's Q)
+    ``matthews``                 (ad - bc) / sqrt[(a + b)(a + c)(b + d)(c + d)]
+    ===========================  ==========================================================
 
     References
     ----------
@@ -161,12 +137,8 @@ def from_counts(hits: float, false_alarms: float, misses: float, correct_negativ
        section 8.2. Academic Press.
     .. [2] Jolliffe, I. T., & Stephenson, D. B. (Eds.) (2012). *Forecast Verification: A
        Practitioner's Guide in Atmospheric Science* (2nd ed.), chapter 3. Wiley.
-    .. [3] Stephenson, D. B. (2000). Use of the "odds ratio" for diagnosing forecast skill.
-       *Weather and Forecasting*, 15, 221-232.
-    .. [4] Murphy, A. H. (1996). The Finley affair: a signal event in the history of forecast
+    .. [3] Murphy, A. H. (1996). The Finley affair: a signal event in the history of forecast
        verification. *Weather and Forecasting*, 11, 3-20.
-    .. [5] Matthews, B. W. (1975). Comparison of the predicted and observed secondary structure of
-       T4 phage lysozyme. *Biochimica et Biophysica Acta*, 405, 442-451.
 
     Examples
     --------
@@ -180,34 +152,11 @@ def from_counts(hits: float, false_alarms: float, misses: float, correct_negativ
     b = _count(false_alarms, "false_alarms")
     c = _count(misses, "misses")
     d = _count(correct_negatives, "correct_negatives")
+    out = {key: score(a, b, c, d) for key, score in DEFINITIONS.items()}
     q = Quotient()
-    n = a + b + c + d
-    cross = a * d - b * c
-    sens = q("sensitivity", a, a + c)
-    spec = q("specificity", d, b + d)
-    a_random = q("gilbert_skill", (a + b) * (a + c), n)
-    out = {
-        "n": n, "events": a + c, "hits": a, "false_alarms": b, "misses": c,
-        "correct_negatives": d,
-        "accuracy": q("accuracy", a + d, n),
-        "error_rate": q("error_rate", b + c, n),
-        "sensitivity": sens,
-        "specificity": spec,
-        "precision": q("precision", a, a + b),
-        "false_alarm_ratio": q("false_alarm_ratio", b, a + b),
-        "false_alarm_rate": q("false_alarm_rate", b, b + d),
-        "critical_success_index": q("critical_success_index", a, a + b + c),
-        "frequency_bias": q("frequency_bias", a + b, a + c),
-        "f1": q("f1", 2 * a, 2 * a + b + c),
-        "balanced_accuracy": (sens + spec) / 2 if not (math.isnan(sens) or math.isnan(spec))
-        else q.mark("balanced_accuracy"),
-        "heidke_skill": q("heidke_skill", 2 * cross, (a + c) * (c + d) + (a + b) * (b + d)),
-        "peirce_skill": q("peirce_skill", cross, (a + c) * (b + d)),
-        "gilbert_skill": q("gilbert_skill", a - a_random, a + b + c - a_random),
-        "odds_ratio": q("odds_ratio", a * d, b * c),
-        "odds_ratio_skill": q("odds_ratio_skill", cross, a * d + b * c),
-        "matthews": q("matthews", cross, math.sqrt((a + b) * (a + c) * (b + d) * (c + d))),
-    }
+    for key, value in out.items():
+        if math.isnan(value):
+            q.mark(key)
     q.warn(order=CATEGORICAL_KEYS)
     return out
 
@@ -239,13 +188,14 @@ def _as_counts(table: Any) -> tuple[float, float, float, float]:
         missing = [k for k in ("hits", "false_alarms", "misses", "correct_negatives") if k not in table]
         if missing:
             raise InputError(f"`confusion` must hold hits, false_alarms, misses and correct_negatives; "
-                             f"missing {', '.join(missing)}")
+                             f"missing {', '.join(missing)}", argument="confusion", value=table)
         vals = [table["hits"], table["false_alarms"], table["misses"], table["correct_negatives"]]
     elif isinstance(table, Sequence) and not isinstance(table, str) and len(table) == 4:
         vals = list(table)
     else:
         raise InputError("`confusion` must be a Confusion, a mapping of the four counts or "
-                         f"(hits, false_alarms, misses, correct_negatives); got {_show(table)}")
+                         f"(hits, false_alarms, misses, correct_negatives); got {_show(table)}",
+                         argument="confusion", value=table)
     names = ("hits", "false_alarms", "misses", "correct_negatives")
     a, b, c, d = (_count(v, k) for v, k in zip(vals, names, strict=True))
     return a, b, c, d
@@ -275,7 +225,9 @@ def cost_cutoff(cost_false_alarm: float, cost_miss: float) -> float:
     Returns
     -------
     float
-        The cutoff in [0, 1]: forecast 1 when the probability is at or above it.
+        The cutoff in [0, 1]: forecast 1 when the probability is strictly above it (p > cutoff). At
+        the cutoff itself both actions cost the same in expectation and no event is forecast, as
+        tocsin's methods do (the majority vote's "share above 0.5").
 
     Raises
     ------
@@ -297,7 +249,8 @@ def cost_cutoff(cost_false_alarm: float, cost_miss: float) -> float:
     cfa = _cost(cost_false_alarm, "cost_false_alarm")
     cmiss = _cost(cost_miss, "cost_miss")
     if cfa + cmiss == 0:
-        raise InputError("`cost_false_alarm` and `cost_miss` must not both be zero; got 0 and 0")
+        raise InputError("`cost_false_alarm` and `cost_miss` must not both be zero; got 0 and 0",
+                         argument="cost_miss", value=cost_miss)
     return cfa / (cfa + cmiss)
 
 

@@ -11,13 +11,9 @@ from typing import Any, NamedTuple
 
 import numpy as np
 
-from sheetfns._scoring.base import Quotient, paired_prob
+from sheetfns._scoring.base import Quotient, paired_prob, ratio
 from sheetfns.checks import _show, as_int
 from sheetfns.errors import InputError
-
-PROBABILISTIC_KEYS: tuple[str, ...] = (
-    "brier", "brier_skill", "log_loss", "roc_auc", "reliability", "resolution", "uncertainty",
-)
 
 #: Probabilities are clipped to [LOG_LOSS_EPS, 1 - LOG_LOSS_EPS] before taking logarithms, so a
 #: confident miss costs -log(1e-15) = 34.5 instead of infinity.
@@ -31,13 +27,177 @@ def _midranks(x: np.ndarray) -> np.ndarray:
     return (upper - (counts - 1) / 2.0)[inverse]
 
 
-def _auc(a: np.ndarray, p: np.ndarray, q: Quotient) -> float:
-    n1 = int(np.count_nonzero(a == 1.0))
-    n0 = a.size - n1
+# --------------------------------------------------------------------------------- the definitions
+# One function per score key of PROBABILISTIC_KEYS, on the scored rows only (no NaN): o_t the outcome
+# (0/1), p_t the probability, N the rows, s the base rate (mean of o). *Perfect*: the value of a
+# forecast of 1 on every event row and 0 elsewhere. *No skill*: the value of the climatological
+# forecast, the base rate s in every row (the reference forecast of probability verification); where
+# that is one number for every s, ``SCORE_INFO[key].no_skill`` holds it.
+
+
+def brier(actual: np.ndarray, prob: np.ndarray) -> float:
+    r"""Brier score (BS): the mean squared error of the probability (probability score, PS;
+    quadratic score).
+
+    .. math:: \mathrm{BS} = \frac1N \sum_t (p_t - o_t)^2
+
+    Range [0, 1]; perfect 0; no skill s(1 - s), the score of the climatological forecast (the
+    uncertainty term of the Murphy decomposition). NaN with no scored row.
+
+    References
+    ----------
+    .. [1] Brier, G. W. (1950). Verification of forecasts expressed in terms of probability.
+       *Monthly Weather Review*, 78, 1-3.
+    """
+    return float(np.mean((prob - actual) ** 2)) if actual.size else math.nan
+
+
+def brier_skill(brier_score: float, reference_brier: float) -> float:
+    r"""Brier skill score (BSS): the share of the reference forecast's Brier score that the forecast
+    removes.
+
+    .. math:: \mathrm{BSS} = 1 - \frac{\mathrm{BS}}{\mathrm{BS}_{\mathrm{ref}}}
+
+    Range (-inf, 1]; perfect 1; no skill 0 (the reference itself scores 0, and so does the
+    climatological forecast against the default reference, climatology). NaN when the reference
+    scores 0.
+
+    References
+    ----------
+    .. [1] Murphy, A. H. (1988). Skill scores based on the mean square error and their relationships
+       to the correlation coefficient. *Monthly Weather Review*, 116, 2417-2424.
+    .. [2] Brier, G. W. (1950). Verification of forecasts expressed in terms of probability.
+       *Monthly Weather Review*, 78, 1-3.
+    """
+    return 1.0 - ratio(brier_score, reference_brier)
+
+
+def log_loss(actual: np.ndarray, prob: np.ndarray) -> float:
+    r"""Logarithmic score (log loss; ignorance score, in nats; cross-entropy).
+
+    .. math:: -\frac1N \sum_t \left[o_t \ln p_t + (1 - o_t) \ln(1 - p_t)\right]
+
+    with :math:`p_t` clipped to [1e-15, 1 - 1e-15] (``LOG_LOSS_EPS``), so a confident miss costs
+    34.5 rather than infinity. Range [0, 34.5]; perfect 0 (up to the clipping); no skill
+    -[s ln s + (1 - s) ln(1 - s)], the entropy of the base rate (a constant 0.5 scores ln 2).
+    NaN with no scored row.
+
+    References
+    ----------
+    .. [1] Good, I. J. (1952). Rational decisions. *Journal of the Royal Statistical Society,
+       Series B*, 14, 107-114.
+    """
+    if not actual.size:
+        return math.nan
+    # Log of the probability given to what happened, floored at log(eps): the same as clipping p to
+    # [eps, 1 - eps] without the rounding of 1 - eps; log1p keeps small p exact.
+    floor = math.log(LOG_LOSS_EPS)
+    with np.errstate(divide="ignore"):
+        logp = np.where(actual == 1.0, np.log(np.maximum(prob, LOG_LOSS_EPS)),
+                        np.maximum(np.log1p(-prob), floor))
+    return 0.0 - float(np.mean(logp))     # 0.0, not -0.0, for a perfect forecast
+
+
+def roc_auc(actual: np.ndarray, prob: np.ndarray) -> float:
+    r"""Area under the ROC curve: the chance that a random event row got a higher probability than
+    a random non-event row, ties counting one half (c statistic; concordance index).
+
+    .. math:: A = \frac{U}{n_1 n_0}
+
+    with U the Mann-Whitney statistic of the event rows' probabilities against the non-event rows'
+    (n_1 and n_0 rows). Range [0, 1]; perfect 1; no skill 0.5. NaN when only one class occurred.
+
+    References
+    ----------
+    .. [1] Bamber, D. (1975). The area above the ordinal dominance graph and the area below the
+       receiver operating characteristic graph. *Journal of Mathematical Psychology*, 12, 387-415.
+    .. [2] Hanley, J. A., & McNeil, B. J. (1982). The meaning and use of the area under a receiver
+       operating characteristic (ROC) curve. *Radiology*, 143, 29-36.
+    .. [3] Mason, I. (1982). A model for assessment of weather forecasts. *Australian
+       Meteorological Magazine*, 30, 291-303.
+    """
+    n1 = int(np.count_nonzero(actual == 1.0))
+    n0 = actual.size - n1
     if n1 == 0 or n0 == 0:
-        return q.mark("roc_auc")
-    u = float(_midranks(p)[a == 1.0].sum()) - n1 * (n1 + 1) / 2.0
+        return math.nan
+    u = float(_midranks(prob)[actual == 1.0].sum()) - n1 * (n1 + 1) / 2.0
     return u / (n1 * float(n0))
+
+
+def reliability(count: np.ndarray, sum_p: np.ndarray, sum_o: np.ndarray) -> float:
+    r"""Reliability (calibration error): how far the forecast probabilities are from the observed
+    frequencies, bin by bin (the first term of the Murphy decomposition).
+
+    .. math:: \mathrm{REL} = \frac1N \sum_k n_k (\bar p_k - \bar o_k)^2
+
+    over bins k holding :math:`n_k` forecasts with mean :math:`\bar p_k` and event frequency
+    :math:`\bar o_k` (``count``, ``sum_p``, ``sum_o`` per bin). Range [0, 1]; perfect 0; no
+    skill 0: the climatological forecast is perfectly reliable (reliability is not skill). NaN
+    with no scored row.
+
+    References
+    ----------
+    .. [1] Murphy, A. H. (1973). A new vector partition of the probability score. *Journal of
+       Applied Meteorology*, 12, 595-600.
+    """
+    total = float(count.sum())
+    if total == 0:
+        return math.nan
+    full = count > 0
+    pbar = sum_p[full] / count[full]
+    fbar = sum_o[full] / count[full]
+    return float(np.sum(count[full] * (pbar - fbar) ** 2)) / total
+
+
+def resolution(count: np.ndarray, sum_p: np.ndarray, sum_o: np.ndarray) -> float:
+    r"""Resolution: how far the observed frequencies of the bins are from the base rate (the
+    second term of the Murphy decomposition, subtracted).
+
+    .. math:: \mathrm{RES} = \frac1N \sum_k n_k (\bar o_k - \bar o)^2
+
+    Range [0, UNC] (at most 0.25); perfect UNC = s(1 - s); no skill 0 (a constant forecast). NaN
+    with no scored row.
+
+    References
+    ----------
+    .. [1] Murphy, A. H. (1973). A new vector partition of the probability score. *Journal of
+       Applied Meteorology*, 12, 595-600.
+    """
+    total = float(count.sum())
+    if total == 0:
+        return math.nan
+    obar = float(sum_o.sum()) / total
+    full = count > 0
+    fbar = sum_o[full] / count[full]
+    return float(np.sum(count[full] * (fbar - obar) ** 2)) / total
+
+
+def uncertainty(count: np.ndarray, sum_p: np.ndarray, sum_o: np.ndarray) -> float:
+    r"""Uncertainty: the variance of the outcome, s(1 - s) (the third term of the Murphy
+    decomposition; the Brier score of the climatological forecast).
+
+    .. math:: \mathrm{UNC} = \bar o (1 - \bar o)
+
+    Range [0, 0.25]; perfect and no skill s(1 - s) itself: a property of the observations alone,
+    the same for every forecast of them. NaN with no scored row.
+
+    References
+    ----------
+    .. [1] Murphy, A. H. (1973). A new vector partition of the probability score. *Journal of
+       Applied Meteorology*, 12, 595-600.
+    """
+    total = float(count.sum())
+    if total == 0:
+        return math.nan
+    obar = float(sum_o.sum()) / total
+    return obar * (1.0 - obar)
+
+
+#: Every probability score key, in the order of ``PROBABILISTIC_KEYS``, with its definition.
+DEFINITIONS = {f.__name__: f for f in (brier, brier_skill, log_loss, roc_auc, reliability, resolution,
+                                       uncertainty)}
+#: The probability score keys (DESIGN.md section 4), in the order of their definitions.
+PROBABILISTIC_KEYS: tuple[str, ...] = tuple(DEFINITIONS)
 
 
 def _bin_index(p: np.ndarray, bins: int | Sequence[float]) -> tuple[np.ndarray, np.ndarray]:
@@ -52,35 +212,33 @@ def _bin_index(p: np.ndarray, bins: int | Sequence[float]) -> tuple[np.ndarray, 
     try:
         edges = np.asarray(bins, dtype=float)
     except (TypeError, ValueError) as exc:
-        raise InputError(f"`bins` must be a number of bins or a sequence of edges; got {_show(bins)}"
-                         ) from exc
+        raise InputError(f"`bins` must be a number of bins or a sequence of edges; got {_show(bins)}",
+                         argument="bins", value=bins) from exc
     if (edges.ndim != 1 or edges.size < 2 or not np.all(np.diff(edges) > 0)
             or edges[0] > 0.0 or edges[-1] < 1.0):
         raise InputError("`bins` edges must be increasing and cover [0, 1] (first <= 0, last >= 1); "
-                         f"got {_show(bins)}")
+                         f"got {_show(bins)}", argument="bins", value=bins)
     idx = np.searchsorted(edges, p, side="right") - 1
     return np.clip(idx, 0, edges.size - 2), edges
 
 
-def _decompose(a: np.ndarray, p: np.ndarray, bins: int | Sequence[float], q: Quotient):
-    """Reliability, resolution, uncertainty and the per-bin arrays (count, sum p, sum o)."""
+def _bins(a: np.ndarray, p: np.ndarray, bins: int | Sequence[float]
+          ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """The bin edges and, per bin, the count of forecasts, their sum and the sum of the outcomes."""
     idx, edges = _bin_index(p, bins)
     nb = edges.size - 1
     count = np.bincount(idx, minlength=nb).astype(float)
     sum_p = np.bincount(idx, weights=p, minlength=nb)
     sum_o = np.bincount(idx, weights=a, minlength=nb)
-    n = a.size
-    if n == 0:
-        for name in ("reliability", "resolution", "uncertainty"):
-            q.mark(name)
-        return math.nan, math.nan, math.nan, edges, count, sum_p, sum_o
-    obar = float(a.mean())
-    full = count > 0
-    pbar = sum_p[full] / count[full]
-    fbar = sum_o[full] / count[full]
-    rel = float(np.sum(count[full] * (pbar - fbar) ** 2)) / n
-    res = float(np.sum(count[full] * (fbar - obar) ** 2)) / n
-    return rel, res, obar * (1.0 - obar), edges, count, sum_p, sum_o
+    return edges, count, sum_p, sum_o
+
+
+def _undefined(q: Quotient, scores: dict[str, float]) -> None:
+    """Mark every NaN score as undefined (the inputs are complete, so NaN means a zero denominator
+    or an empty or one-class sample)."""
+    for key, value in scores.items():
+        if math.isnan(value):
+            q.mark(key)
 
 
 def brier_decomposition(actual: Any, prob: Any, bins: int | Sequence[float] = 10) -> dict[str, Any]:
@@ -140,12 +298,14 @@ def brier_decomposition(actual: Any, prob: Any, bins: int | Sequence[float] = 10
     .. [3] Stephenson, D. B., Coelho, C. A. S., & Jolliffe, I. T. (2008). Two extra components in
        the Brier score decomposition. *Weather and Forecasting*, 23, 752-757.
     """
-    import pandas as pd
+    import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
 
     a, p = paired_prob(actual, prob=prob)
+    edges, count, sum_p, sum_o = _bins(a, p, bins)
+    parts = {"reliability": reliability(count, sum_p, sum_o), "resolution": resolution(count, sum_p, sum_o),
+             "uncertainty": uncertainty(count, sum_p, sum_o), "brier": brier(a, p)}
     q = Quotient()
-    rel, res, unc, edges, count, sum_p, sum_o = _decompose(a, p, bins, q)
-    brier = float(np.mean((p - a) ** 2)) if a.size else q.mark("brier")
+    _undefined(q, parts)
     q.warn("no scored rows")
     with np.errstate(invalid="ignore", divide="ignore"):
         table = pd.DataFrame({
@@ -156,8 +316,7 @@ def brier_decomposition(actual: Any, prob: Any, bins: int | Sequence[float] = 10
             "observed_frequency": np.where(count > 0, sum_o / count, np.nan),
             "count": count.astype(np.int64),
         })
-    return {"reliability": rel, "resolution": res, "uncertainty": unc, "brier": brier,
-            "n": int(a.size), "table": table}
+    return {**parts, "n": int(a.size), "table": table}
 
 
 def probabilistic(actual: Any, prob: Any, reference: Any = None, *,
@@ -167,22 +326,19 @@ def probabilistic(actual: Any, prob: Any, reference: Any = None, *,
     Rows where ``actual``, ``prob`` or (an array) ``reference`` is NaN are skipped; N is the
     number of rows left, :math:`o_t` the outcome (0/1) and :math:`p_t` the probability.
 
-    ``brier`` = :math:`\frac1N \sum_t (p_t - o_t)^2`
-        Brier score (BS), mean squared probability error. Range [0, 1], perfect 0; a constant
-        forecast of the base rate scores UNC.
-    ``brier_skill`` = 1 - BS / BS_ref
-        Brier skill score (BSS) against ``reference``. Range (-inf, 1], perfect 1, no skill 0.
-    ``log_loss`` = :math:`-\frac1N \sum_t [o_t \ln p_t + (1 - o_t) \ln(1 - p_t)]`
-        Logarithmic (ignorance, cross-entropy) score, natural log, with :math:`p_t` clipped to
-        [1e-15, 1 - 1e-15] (``LOG_LOSS_EPS``) so a confident miss costs 34.5 rather than infinity.
-        Range [0, 34.5], perfect 0 (up to the clipping); a constant 0.5 scores ln 2.
-    ``roc_auc`` = U / (n_1 n_0)
-        Area under the ROC curve, U the Mann-Whitney statistic of the event rows' probabilities
-        against the non-event rows' (ties between an event and a non-event count 1/2): the chance
-        that a random event row got a higher probability than a random non-event row. Range
-        [0, 1], perfect 1, no skill 0.5. Also the c statistic / concordance index.
-    ``reliability``, ``resolution``, ``uncertainty``
-        Murphy's decomposition with ``bins`` bins; see :func:`brier_decomposition`.
+    ===================  ============================================================================
+    ``brier``            :math:`\frac1N \sum_t (p_t - o_t)^2`, the Brier score BS
+    ``brier_skill``      1 - BS / BS_ref, against ``reference``
+    ``log_loss``         :math:`-\frac1N \sum_t [o_t \ln p_t + (1 - o_t) \ln(1 - p_t)]`, p clipped to
+                         [1e-15, 1 - 1e-15] (``LOG_LOSS_EPS``)
+    ``roc_auc``          U / (n_1 n_0), U the Mann-Whitney statistic of the event rows' probabilities
+    ``reliability``,     Murphy's decomposition with ``bins`` bins; see :func:`brier_decomposition`
+    ``resolution``,
+    ``uncertainty``
+    ===================  ============================================================================
+
+    Each score's own docstring (``SCORE_INFO[key].definition``, in this module) gives its range,
+    perfect and no-skill values, synonyms and defining source.
 
     Parameters
     ----------
@@ -233,28 +389,15 @@ def probabilistic(actual: Any, prob: Any, reference: Any = None, *,
         r = None
     else:
         a, p, r = paired_prob(actual, prob=prob, reference=reference)
+    _, count, sum_p, sum_o = _bins(a, p, bins)
+    unc = uncertainty(count, sum_p, sum_o)
+    bs = brier(a, p)
+    out = {"brier": bs, "brier_skill": brier_skill(bs, unc if r is None else brier(a, r)),
+           "log_loss": log_loss(a, p), "roc_auc": roc_auc(a, p),
+           "reliability": reliability(count, sum_p, sum_o), "resolution": resolution(count, sum_p, sum_o),
+           "uncertainty": unc}
     q = Quotient()
-    n = a.size
-    if n == 0:
-        brier = q.mark("brier")
-        loss = q.mark("log_loss")
-    else:
-        brier = float(np.mean((p - a) ** 2))
-        # Log of the probability given to what happened, floored at log(eps): the same as clipping
-        # p to [eps, 1 - eps] without the rounding of 1 - eps; log1p keeps small p exact.
-        floor = math.log(LOG_LOSS_EPS)
-        with np.errstate(divide="ignore"):
-            logp = np.where(a == 1.0, np.log(np.maximum(p, LOG_LOSS_EPS)),
-                            np.maximum(np.log1p(-p), floor))
-        loss = 0.0 - float(np.mean(logp))     # 0.0, not -0.0, for a perfect forecast
-    rel, res, unc = _decompose(a, p, bins, q)[:3]
-    if r is None:
-        bs_ref = unc
-    else:
-        bs_ref = float(np.mean((r - a) ** 2)) if n else math.nan
-    skill = 1.0 - q("brier_skill", brier, bs_ref)
-    out = {"brier": brier, "brier_skill": skill, "log_loss": loss, "roc_auc": _auc(a, p, q),
-           "reliability": rel, "resolution": res, "uncertainty": unc}
+    _undefined(q, out)
     q.warn(order=PROBABILISTIC_KEYS)
     return out
 
@@ -264,10 +407,10 @@ def _reference_value(reference: Any) -> float:
         x = float(reference)
     except (TypeError, ValueError) as exc:
         raise InputError(f"`reference` must be a probability in [0, 1] or a series of them; "
-                         f"got {_show(reference)}") from exc
+                         f"got {_show(reference)}", argument="reference", value=reference) from exc
     if not 0.0 <= x <= 1.0:
         raise InputError(f"`reference` must be a probability in [0, 1] or a series of them; "
-                         f"got {_show(reference)}")
+                         f"got {_show(reference)}", argument="reference", value=reference)
     return x
 
 

@@ -143,7 +143,8 @@ def diebold_mariano(actual: Any, prob_a: Any, prob_b: Any, horizon: int = 1
         q.warn("fewer than 2 scored rows")
         return math.nan, math.nan
     if h >= t:
-        raise InputError(f"`horizon` must be less than the number of scored rows ({t}); got {horizon}")
+        raise InputError(f"`horizon` must be less than the number of scored rows ({t}); got {horizon}",
+                         argument="horizon", value=horizon)
     d = (pa - o) ** 2 - (pb - o) ** 2
     e = d - d.mean()
     gamma0 = float(e @ e) / t
@@ -159,7 +160,9 @@ def diebold_mariano(actual: Any, prob_a: Any, prob_b: Any, horizon: int = 1
         lrv = gamma0
     stat = float(d.mean()) / math.sqrt(lrv / t)
     stat *= math.sqrt((t + 1 - 2 * h + h * (h - 1) / t) / t)
-    from scipy.special import stdtr  # Student-t CDF; far lighter to import than scipy.stats
+    # Student-t CDF; scipy.special is far lighter than scipy.stats, and lazy: it adds ~1.3 s to
+    # start-up (DEVELOPERS.md, The core)
+    from scipy.special import stdtr
 
     return stat, float(2.0 * stdtr(t - 1, -abs(stat)))
 
@@ -212,14 +215,16 @@ def wilson(successes: float, n: float, confidence: float = 0.95) -> tuple[float,
     x = _number(successes, "successes")
     m = _number(n, "n")
     if x > m:
-        raise InputError(f"`successes` must not exceed `n` ({_show(n)}); got {_show(successes)}")
+        raise InputError(f"`successes` must not exceed `n` ({_show(n)}); got {_show(successes)}",
+                         argument="successes", value=successes)
     try:
         conf = float(confidence)
     except (TypeError, ValueError) as exc:
         raise InputError(f"`confidence` must be a number strictly between 0 and 1; "
-                         f"got {_show(confidence)}") from exc
+                         f"got {_show(confidence)}", argument="confidence", value=confidence) from exc
     if not 0.0 < conf < 1.0:
-        raise InputError(f"`confidence` must be a number strictly between 0 and 1; got {_show(confidence)}")
+        raise InputError(f"`confidence` must be a number strictly between 0 and 1; got {_show(confidence)}",
+                         argument="confidence", value=confidence)
     if m == 0:
         q = Quotient()
         q.mark("wilson interval")
