@@ -18,7 +18,7 @@ import pytest
 import xlsxwriter
 from openpyxl import Workbook, load_workbook
 
-from sheetfns.errors import InputError, PackageError, TocsinError
+from sheetfns.errors import InputError, TocsinError
 from watcher.refresh import reader
 from watcher.refresh.reader import (
     ReaderError,
@@ -28,6 +28,7 @@ from watcher.refresh.reader import (
     read_header,
     read_sheet,
 )
+from watcher.xlsx.errors import PackageError
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_workbooks"
 BACKENDS = ("calamine", "openpyxl")

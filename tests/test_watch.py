@@ -23,9 +23,9 @@ from pathlib import Path
 
 import pytest
 
-from sheetfns.errors import PackageError
 from watcher.watch.log import WatchLog
 from watcher.watch.service import Watcher
+from watcher.xlsx.errors import PackageError
 
 QUIET = 0.4
 MARKER = "tocsin/refreshed.txt"

@@ -8,9 +8,9 @@ import time
 from dataclasses import dataclass
 from pathlib import Path
 
-from sheetfns.errors import PackageError
 from watcher.watch.log import WatchLog
 from watcher.watch.worker import Outcome, RefreshWorker
+from watcher.xlsx.errors import PackageError
 
 A = Path("/share/ferry.xlsx")
 B = Path("/share/bakery.xlsx")

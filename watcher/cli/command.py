@@ -147,13 +147,14 @@ def main(argv: Sequence[str] | None = None) -> int:
         parser.print_help()
         return 2
     from sheetfns.errors import TocsinError
+    from watcher.xlsx.errors import XlsxError
 
     try:
         return COMMANDS[args.command](args)
     except KeyboardInterrupt:
         print("interrupted", file=sys.stderr)
         return 130
-    except (TocsinError, OSError) as exc:
+    except (TocsinError, XlsxError, OSError) as exc:
         if args.debug:
             raise
         print(f"error: {_describe(exc)}", file=sys.stderr)

@@ -74,6 +74,7 @@ from typing import Any
 
 from sheetfns.errors import CriterionError, JobError, TocsinError
 from sheetfns.events import Criterion, parse_criterion
+from watcher.xlsx.errors import XlsxError
 
 __all__ = ["TABLE_SHEET", "SETTINGS", "DEFAULTS", "TABLE_NOTE", "Job", "RowError", "DisabledJob",
            "JobTable", "read_job_table", "resolve", "job_table_rows", "output_names"]
@@ -576,7 +577,7 @@ def _parse_row(r: _Row, book: Any, data_sheets: set[str]) -> Job:
     if sheet is not None:
         try:
             header = book.header(sheet)
-        except TocsinError as exc:
+        except (TocsinError, XlsxError) as exc:
             problems.append(r.bad("data_sheet", "must name a sheet with a header row and data", value=sheet,
                                   hint=str(exc)))
         else:

@@ -36,7 +36,7 @@ How cells are read
 Errors (:class:`ReaderError`, a :class:`~sheetfns.errors.InputError`) name the workbook, the sheet and
 the column, with the closest header or sheet name when one is near: a missing sheet, a missing
 column, an empty sheet, a sheet with a header row but no data. A file that is missing, not a workbook,
-or encrypted raises :class:`~sheetfns.errors.PackageError`.
+or encrypted raises :class:`~watcher.xlsx.errors.PackageError`.
 """
 from __future__ import annotations
 
@@ -52,7 +52,8 @@ from typing import Any
 
 import numpy as np
 
-from sheetfns.errors import InputError, PackageError
+from sheetfns.errors import InputError
+from watcher.xlsx.errors import PackageError
 from watcher.xlsx.spec import col_letter as column_letter  # one column-letter rule for reading and writing
 
 __all__ = ["ReaderError", "Header", "SheetData", "Book", "open_book", "read_sheet", "read_header",

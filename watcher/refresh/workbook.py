@@ -25,7 +25,8 @@ from typing import Any
 
 import numpy as np
 
-from sheetfns.errors import ConcurrentEditError, JobError, TocsinError
+from sheetfns.errors import JobError, TocsinError
+from watcher.xlsx.errors import ConcurrentEditError, XlsxError
 
 VERSION = "0.1.0"
 MAX_TABLE_ROWS = 1_048_575  # data rows below the row table's header (ECMA-376 Part 1, 18.3.1.73)
@@ -283,7 +284,7 @@ def evaluate_book(path: Path, progress: Progress = None, *, known: dict[str, str
             try:
                 data = book.read(job.data_sheet, job.columns, date_column=job.date_column,
                                  text_columns=job.text_columns)
-            except TocsinError as exc:
+            except (TocsinError, XlsxError) as exc:
                 fp = _digest([dict(job.settings), str(exc)], None)
                 outcomes.append(JobOutcome(job, job.name, job.output_sheet, job.profile_sheet, fp,
                                            error=str(exc), unchanged=known.get(job.name) == fp))
@@ -312,8 +313,8 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
     (the workbook has no job table: nothing to do, and an error for a workbook named on purpose).
     """
     from watcher.refresh import jobs as jobs_mod
-    from watcher.watch.debounce import owner_file
     from watcher.xlsx import package
+    from watcher.xlsx.names import owner_file
 
     path = Path(path)
     start = time.monotonic()
@@ -341,7 +342,7 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
         known = {} if force else {n: r["fingerprint"] for n, r in old.items() if intact(n)}
         users = [s for s in pkg.sheet_names if s.casefold() not in owned]
         table, outcomes = evaluate_book(path, progress, known=known, taken=users)
-    except (TocsinError, OSError) as exc:
+    except (TocsinError, XlsxError, OSError) as exc:
         return done("failed", message=_message(exc))
     disabled = {d.name for d in table.disabled if d.name}
     current = {o.name for o in outcomes} | (disabled & set(old))
@@ -357,7 +358,7 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
             continue
         try:
             specs = _sheets_for(o, refreshed_at)
-        except TocsinError as exc:  # a layout problem of one job must not stop the others
+        except (TocsinError, XlsxError) as exc:  # a layout problem of one job must not stop the others
             outcomes[i] = o = dataclasses.replace(o, error=f"could not lay out the sheet: {exc}")
             specs = _sheets_for(o, refreshed_at)
         sheets.extend(specs)
@@ -371,7 +372,7 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
         package.write(path, sheets, state=state, remove=remove, expect=pkg.fingerprint)
     except ConcurrentEditError as exc:
         return done("conflict", message=str(exc))
-    except (TocsinError, OSError) as exc:
+    except (TocsinError, XlsxError, OSError) as exc:
         return done("failed", tuple(_job_report(o, new) for o in outcomes), _message(exc))
     msg = "; ".join(e.message for e in table.errors if not e.job)
     return done("refreshed", tuple(_job_report(o, new) for o in outcomes), msg)
@@ -412,7 +413,7 @@ def check_workbook(path: Path | str, *, progress: Progress = None) -> CheckResul
         owned = {s.casefold() for s in pkg.owned}
         users = [s for s in pkg.sheet_names if s.casefold() not in owned]
         table, outcomes = evaluate_book(path, progress, taken=users)
-    except (TocsinError, OSError) as exc:
+    except (TocsinError, XlsxError, OSError) as exc:
         return CheckResult(path, error=_message(exc))
     return CheckResult(path, table, tuple(outcomes), problems)
 
@@ -464,7 +465,7 @@ def guess_date_column(book: Any, sheet: str, header: Any) -> str | None:
             continue
         try:
             data = book.read(sheet, [], date_column=text)
-        except TocsinError:
+        except (TocsinError, XlsxError):
             continue
         if data.dates is not None and data.nrows and (data.dates == data.dates).mean() > 0.9:
             return text

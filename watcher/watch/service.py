@@ -29,9 +29,10 @@ from collections.abc import Callable, Iterator, Sequence
 from pathlib import Path
 from typing import Any
 
-from watcher.watch.debounce import Debouncer, FileProbe, is_workbook_name, workbook_of_owner_file
+from watcher.watch.debounce import Debouncer, FileProbe
 from watcher.watch.log import WatchLog
 from watcher.watch.worker import Outcome, RefreshWorker
+from watcher.xlsx.names import is_workbook_name, workbook_of_owner_file
 
 __all__ = ["Watcher", "add_watch_arguments", "main", "main_watch", "run_watch"]
 

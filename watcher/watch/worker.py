@@ -23,7 +23,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from sheetfns.errors import PackageError
+from watcher.xlsx.errors import PackageError
 
 __all__ = ["Outcome", "RefreshAbandoned", "RefreshWorker"]
 

@@ -30,7 +30,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import BinaryIO
 
-from sheetfns.errors import PackageError
+from watcher.xlsx.errors import PackageError
 
 __all__ = ["MAX_PART", "MAX_TOTAL", "Member", "ZipSource", "ZipWriter"]
 
@@ -83,9 +83,10 @@ class ZipSource:
             elif data[:2] == b"PK":
                 hint = " (it looks truncated or damaged)"
             raise PackageError(f"'{label}' is not a readable workbook package: not a complete zip file"
-                               f"{hint}") from exc
+                               f"{hint}", workbook=label) from exc
         except (OSError, ValueError, EOFError, struct.error) as exc:
-            raise PackageError(f"'{label}' is not a readable workbook package: {exc}") from exc
+            raise PackageError(f"'{label}' is not a readable workbook package: {exc}",
+                               workbook=label) from exc
         self._zf = zf
         self.members: dict[str, Member] = {}
         self.names: list[str] = []
@@ -95,14 +96,14 @@ class ZipSource:
             name = info.filename
             if name in self.members or name.casefold() in self._folded:
                 raise PackageError(f"'{label}' has two members named '{name}'; refusing to guess which "
-                                   "counts")
+                                   "counts", workbook=label, part=name)
             if info.flag_bits & 0x1:
                 raise PackageError(f"'{label}': member '{name}' is encrypted; password-protected packages "
-                                   "are not supported")
+                                   "are not supported", workbook=label, part=name)
             total += info.file_size
             if total > MAX_TOTAL:
                 raise PackageError(f"'{label}' declares more than {MAX_TOTAL // 1024**3} GiB of uncompressed "
-                                   "content; refused")
+                                   "content; refused", workbook=label, limit=MAX_TOTAL)
             dt = info.date_time
             dos_date = ((dt[0] - 1980) << 9) | (dt[1] << 5) | dt[2]
             dos_time = (dt[3] << 11) | (dt[4] << 5) | (dt[5] // 2)
@@ -122,16 +123,18 @@ class ZipSource:
         member = self.members[name]
         if member.file_size > limit:
             raise PackageError(f"'{self.label}': part '{name}' is {member.file_size:,} bytes uncompressed, "
-                               f"more than the {limit:,} tocsin reads; refused")
+                               f"more than the {limit:,} tocsin reads; refused",
+                               workbook=self.label, part=name,
+                               limit=limit)
         try:
             with self._zf.open(name) as fh:
                 out = fh.read(limit + 1)
         except (zipfile.BadZipFile, zlib.error, OSError, EOFError, NotImplementedError) as exc:
             raise PackageError(f"'{self.label}': part '{name}' cannot be read ({exc}); the file is "
-                               "damaged") from exc
+                               "damaged", workbook=self.label, part=name) from exc
         if len(out) > limit:
             raise PackageError(f"'{self.label}': part '{name}' is larger than the {limit:,} bytes tocsin "
-                               "reads; refused")
+                               "reads; refused", workbook=self.label, part=name, limit=limit)
         return out
 
     def raw(self, name: str) -> bytes:
@@ -140,14 +143,17 @@ class ZipSource:
         off = m.header_offset
         head = self.data[off:off + _LOCAL.size]
         if len(head) < _LOCAL.size:
-            raise PackageError(f"'{self.label}': member '{name}' lies past the end of the file (truncated)")
+            raise PackageError(f"'{self.label}': member '{name}' lies past the end of the file (truncated)",
+                               workbook=self.label, part=name)
         sig, *_rest, n_name, n_extra = _LOCAL.unpack(head)
         if sig != b"PK\x03\x04":
-            raise PackageError(f"'{self.label}': member '{name}' has no local header; the file is damaged")
+            raise PackageError(f"'{self.label}': member '{name}' has no local header; the file is damaged",
+                               workbook=self.label, part=name)
         start = off + _LOCAL.size + n_name + n_extra
         data = self.data[start:start + m.compress_size]
         if len(data) != m.compress_size:
-            raise PackageError(f"'{self.label}': member '{name}' is cut short; the file is truncated")
+            raise PackageError(f"'{self.label}': member '{name}' is cut short; the file is truncated",
+                               workbook=self.label, part=name)
         return data
 
 
@@ -226,7 +232,8 @@ class ZipWriter:
             raise state["error"]
         size, csize, crc = state["size"], state["csize"], state["crc"]
         if size >= _LIMIT32 or csize >= _LIMIT32 or offset >= _LIMIT32:
-            raise PackageError(f"part '{name}' would be 4 GiB or more; packages that large are not written")
+            raise PackageError(f"part '{name}' would be 4 GiB or more; packages that large are not written",
+                               part=name, limit=_LIMIT32)
         end = fh.tell()
         fh.seek(offset)
         fh.write(_LOCAL.pack(b"PK\x03\x04", _VERSION, flags, zipfile.ZIP_DEFLATED, *_FIXED_DOS_TIME,
@@ -246,14 +253,15 @@ class ZipWriter:
                                    m.internal_attr, m.external_attr, m.header_offset) + encoded)
         end = fh.tell()
         if len(self._entries) > 0xFFFF or end >= _LIMIT32:
-            raise PackageError("the package would need ZIP64 (4 GiB or 65,535 members); not written")
+            raise PackageError("the package would need ZIP64 (4 GiB or 65,535 members); not written",
+                               limit=_LIMIT32)
         fh.write(_END.pack(b"PK\x05\x06", 0, 0, len(self._entries), len(self._entries), end - start,
                            start, 0))
 
     # -- internals -------------------------------------------------------------------------------
     def _encode_name(self, name: str) -> bytes:
         if name.casefold() in self._names:
-            raise PackageError(f"internal error: member '{name}' written twice")
+            raise PackageError(f"internal error: member '{name}' written twice", part=name)
         self._names.add(name.casefold())
         return name.encode("utf-8")
 
@@ -267,7 +275,8 @@ class ZipWriter:
             flags |= _UTF8_FLAG
         offset = self._fh.tell()
         if size >= _LIMIT32 or csize >= _LIMIT32 or offset >= _LIMIT32:
-            raise PackageError(f"part '{name}' or the package would be 4 GiB or more; not written")
+            raise PackageError(f"part '{name}' or the package would be 4 GiB or more; not written", part=name,
+                               limit=_LIMIT32)
         self._fh.write(_LOCAL.pack(b"PK\x03\x04", _VERSION, flags, method, dos_time, dos_date, crc, csize,
                                    size, len(encoded), 0) + encoded)
         self._fh.write(payload)

@@ -18,7 +18,7 @@ from urllib.parse import quote, unquote
 
 from lxml import etree
 
-from sheetfns.errors import PackageError
+from watcher.xlsx.errors import PackageError
 
 __all__ = [
     "CT", "NS", "REL", "ContentTypes", "Rel", "Rels", "parse_xml", "rels_part_of", "resolve",
@@ -104,15 +104,17 @@ def parse_xml(data: bytes, part: str, label: str) -> etree._Element:
     """Parse one XML part safely; raise PackageError naming the file and part on any problem."""
     if b"<!DOCTYPE" in data[:4096] or b"<!ENTITY" in data[:4096]:
         raise PackageError(f"'{label}': part '{part}' declares a document type or entities, which Office "
-                           "Open XML parts never do; refused (possible entity-expansion attack)")
+                           "Open XML parts never do; refused (possible entity-expansion attack)",
+                           workbook=label, part=part)
     try:
         root = etree.fromstring(data, _PARSER)
     except etree.XMLSyntaxError as exc:
-        raise PackageError(f"'{label}': part '{part}' is not well-formed XML ({exc})") from exc
+        raise PackageError(f"'{label}': part '{part}' is not well-formed XML ({exc})",
+                           workbook=label, part=part) from exc
     tree = root.getroottree()
     if tree.docinfo.doctype or tree.docinfo.internalDTD is not None:
         raise PackageError(f"'{label}': part '{part}' declares a document type, which Office Open XML "
-                           "parts never do; refused")
+                           "parts never do; refused", workbook=label, part=part)
     return root
 
 

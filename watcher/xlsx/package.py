@@ -7,14 +7,14 @@ Public API
 ----------
 ``Package.open(path)``
     Read a workbook safely (not a zip, truncated, DTD/entity bomb, over-size parts: a clear
-    :class:`~sheetfns.errors.PackageError` naming the file). Exposes ``sheet_names`` (in order),
+    :class:`~watcher.xlsx.errors.PackageError` naming the file). Exposes ``sheet_names`` (in order),
     ``sheets`` (:class:`SheetInfo`), ``owned`` (names of tocsin's sheets), ``date1904``, ``state`` (the
     small dict tocsin keeps in the package) and ``fingerprint`` (size, mtime_ns, sha256 of the bytes read).
 ``write(path, sheets, *, state, remove=(), expect)`` (also ``Package.write``)
     One atomic write of all of tocsin's sheets (:class:`~watcher.xlsx.spec.SheetSpec`): new sheets are
     appended after the user's, tocsin's sheets of the same name are replaced in place, tocsin's sheets
-    named in ``remove`` are deleted. Raises :class:`~sheetfns.errors.OwnershipError` for a user's sheet
-    of a requested name (naming it) and :class:`~sheetfns.errors.ConcurrentEditError` when the file no
+    named in ``remove`` are deleted. Raises :class:`~watcher.xlsx.errors.OwnershipError` for a user's sheet
+    of a requested name (naming it) and :class:`~watcher.xlsx.errors.ConcurrentEditError` when the file no
     longer holds the bytes ``expect`` describes (someone saved while tocsin computed: nothing is
     written; try again later). Returns a :class:`WriteResult`.
 ``validate(path)``
@@ -66,8 +66,9 @@ from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from sheetfns.errors import ConcurrentEditError, InputError, PackageError
 from watcher.xlsx.archive import MAX_TOTAL
+from watcher.xlsx.errors import ConcurrentEditError, PackageError, SpecError
+from watcher.xlsx.names import is_temp_of, temp_affixes
 from watcher.xlsx.plan import check_request, make_plan
 from watcher.xlsx.plan import emit as _emit
 from watcher.xlsx.source import MARKER_PREFIX, SHEET_MARK, SheetInfo, Source
@@ -76,8 +77,6 @@ from watcher.xlsx.spec import SheetSpec
 __all__ = ["Fingerprint", "Package", "SheetInfo", "WriteResult", "MARKER_PREFIX", "SHEET_MARK",
            "fingerprint_of", "validate", "write"]
 
-_TEMP_PREFIX = ".tocsin-"  # the watcher ignores these (watcher.watch.debounce.TOCSIN_TEMP_PREFIX)
-_TEMP_SUFFIX = ".tmp"
 _STALE_TEMP_SECONDS = 3600
 
 
@@ -119,19 +118,21 @@ def _read_file(path: Path) -> tuple[bytes, Fingerprint]:
             before = os.fstat(fh.fileno())
             if before.st_size > MAX_TOTAL:
                 raise PackageError(f"workbook '{label}' is {before.st_size / 1024**3:.1f} GiB; tocsin reads "
-                                   f"workbooks up to {MAX_TOTAL // 1024**3} GiB")
+                                   f"workbooks up to {MAX_TOTAL // 1024**3} GiB",
+                                   workbook=label, limit=MAX_TOTAL)
             data = fh.read()
             after = os.fstat(fh.fileno())
     except FileNotFoundError as exc:
-        raise PackageError(f"workbook '{path}' does not exist") from exc
+        raise PackageError(f"workbook '{path}' does not exist", workbook=label) from exc
     except IsADirectoryError as exc:
-        raise PackageError(f"'{path}' is a folder, not a workbook") from exc
+        raise PackageError(f"'{path}' is a folder, not a workbook", workbook=label) from exc
     except OSError as exc:
-        raise PackageError(f"workbook '{label}' cannot be read: {exc.strerror or exc}") from exc
+        raise PackageError(f"workbook '{label}' cannot be read: {exc.strerror or exc}",
+                           workbook=label) from exc
     moved = (before.st_size, before.st_mtime_ns) != (after.st_size, after.st_mtime_ns)
     if moved or len(data) != after.st_size:
         raise ConcurrentEditError(f"workbook '{label}' changed while tocsin read it; try again when it is "
-                                  "saved")
+                                  "saved", workbook=label)
     return data, fingerprint_of(data, after)
 
 
@@ -179,12 +180,11 @@ def validate(path: str | os.PathLike) -> list[str]:
     return check_package(path)
 
 
-def _cleanup_stale_temps(folder: Path, stem: str) -> None:
+def _cleanup_stale_temps(path: Path) -> None:
     now = time.time()
     try:
-        for entry in os.scandir(folder):
-            if (entry.name.startswith(f"{_TEMP_PREFIX}{stem}-") and entry.name.endswith(_TEMP_SUFFIX)
-                    and now - entry.stat().st_mtime > _STALE_TEMP_SECONDS):
+        for entry in os.scandir(path.parent):
+            if is_temp_of(entry.name, path) and now - entry.stat().st_mtime > _STALE_TEMP_SECONDS:
                 try:
                     os.unlink(entry.path)
                 except OSError:
@@ -241,10 +241,10 @@ def _still_same(path: Path, expect: Fingerprint, label: str) -> None:
         data, now = _read_file(path)
     except PackageError as exc:
         raise ConcurrentEditError(f"workbook '{label}' changed while tocsin computed ({exc}); nothing was "
-                                  "written, try again later") from exc
+                                  "written, try again later", workbook=label) from exc
     if not now.same_bytes(expect):
         raise ConcurrentEditError(f"workbook '{label}' was saved by someone else while tocsin computed; "
-                                  "nothing was written, try again later")
+                                  "nothing was written, try again later", workbook=label)
 
 
 def write(path: str | os.PathLike, sheets: Sequence[SheetSpec], *, state: dict,
@@ -286,23 +286,25 @@ def write(path: str | os.PathLike, sheets: Sequence[SheetSpec], *, state: dict,
     path = Path(os.path.realpath(path))
     label = path.name
     if not isinstance(state, dict):
-        raise InputError(f"`state` must be a dict; got {type(state).__name__}")
+        raise SpecError(f"`state` must be a dict; got {type(state).__name__}", where="state")
     if isinstance(remove, str):
         remove = (remove,)
     data, fp = _read_file(path)
     if expect is not None and not fp.same_bytes(expect):
         raise ConcurrentEditError(f"workbook '{label}' was saved by someone else since tocsin read it; "
-                                  "nothing was written, try again later")
+                                  "nothing was written, try again later", workbook=label)
     expect = fp
     src = Source(data, label)
     check_request(src, sheets, remove, owned=owned)
     plan = make_plan(src, sheets, state, remove, owned=owned)
     folder = path.parent
-    _cleanup_stale_temps(folder, path.stem)
+    _cleanup_stale_temps(path)
+    prefix, suffix = temp_affixes(path)
     try:
-        fd, tmp_name = tempfile.mkstemp(prefix=f"{_TEMP_PREFIX}{path.stem}-", suffix=_TEMP_SUFFIX, dir=folder)
+        fd, tmp_name = tempfile.mkstemp(prefix=prefix, suffix=suffix, dir=folder)
     except OSError as exc:
-        raise PackageError(f"cannot create a temporary file beside '{label}': {exc.strerror or exc}") from exc
+        raise PackageError(f"cannot create a temporary file beside '{label}': {exc.strerror or exc}",
+                           workbook=label) from exc
     tmp = Path(tmp_name)
     try:
         with os.fdopen(fd, "w+b") as fh:
@@ -314,17 +316,19 @@ def write(path: str | os.PathLike, sheets: Sequence[SheetSpec], *, state: dict,
                 with zipfile.ZipFile(fh) as check:
                     present = {n.casefold() for n in check.namelist()}
             except zipfile.BadZipFile as exc:
-                raise PackageError(f"internal error: the new package of '{label}' does not open") from exc
+                raise PackageError(f"internal error: the new package of '{label}' does not open",
+                                   workbook=label) from exc
         missing = [n for n in written_new if n.casefold() not in present]
         if missing:
-            raise PackageError(f"internal error: the new package of '{label}' lacks {missing}")
+            raise PackageError(f"internal error: the new package of '{label}' lacks {missing}",
+                               workbook=label)
         _still_same(path, expect, label)
         _copy_owner_and_mode(path, tmp)
         try:
             os.replace(tmp, path)
         except OSError as exc:
             raise PackageError(f"cannot replace '{label}' (is it open in a spreadsheet program?): "
-                               f"{exc.strerror or exc}") from exc
+                               f"{exc.strerror or exc}", workbook=label) from exc
     except BaseException:
         try:
             tmp.unlink()

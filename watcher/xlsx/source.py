@@ -10,8 +10,8 @@ from dataclasses import dataclass
 
 from lxml import etree
 
-from sheetfns.errors import PackageError
 from watcher.xlsx.archive import ZipSource
+from watcher.xlsx.errors import PackageError
 from watcher.xlsx.opc import CT, NS, REL, ContentTypes, Rels, local_name, parse_xml, rels_part_of
 
 __all__ = ["MARKER_FORMAT", "MARKER_PREFIX", "SHEET_MARK", "SheetInfo", "Source"]
@@ -57,7 +57,8 @@ class Source:
         rels_name = zs.find("_rels/.rels")
         if ct_name is None or rels_name is None:
             raise PackageError(f"'{label}' is a zip file but not an Office Open XML package (no "
-                               f"{'[Content_Types].xml' if ct_name is None else '_rels/.rels'})")
+                               f"{'[Content_Types].xml' if ct_name is None else '_rels/.rels'})",
+                               workbook=label)
         self.ct_name, self.root_rels_name = ct_name, rels_name
         self.ct = ContentTypes(self.parse(ct_name))
         self.root_rels = Rels("", self.parse(rels_name))
@@ -65,23 +66,24 @@ class Source:
         if not docs:
             if self.root_rels.by_type(REL.strict_office_document):
                 raise PackageError(f"'{label}' is a Strict Open XML workbook, which tocsin does not edit; "
-                                   "save it as an ordinary .xlsx workbook")
-            raise PackageError(f"'{label}' has no main document; it is not a workbook")
+                                   "save it as an ordinary .xlsx workbook", workbook=label)
+            raise PackageError(f"'{label}' has no main document; it is not a workbook", workbook=label)
         wb_part = self.root_rels.part_of(docs[0])
         wb_name = zs.find(wb_part)
         content_type = self.ct.of(wb_part) or ""
         if content_type == CT.binary_workbook:
-            raise PackageError(f"'{label}' is a binary workbook (.xlsb); tocsin edits .xlsx and .xlsm only")
+            raise PackageError(f"'{label}' is a binary workbook (.xlsb); tocsin edits .xlsx and .xlsm only",
+                               workbook=label)
         if wb_name is None or content_type not in CT.workbook_types:
             raise PackageError(f"'{label}' is not a spreadsheet workbook (main part '{wb_part}' has content "
-                               f"type '{content_type or 'none'}')")
+                               f"type '{content_type or 'none'}')", workbook=label, part=wb_part)
         self.wb_name = wb_name
         self.macro_enabled = "macroEnabled" in content_type
         self.wb = self.parse(wb_name)
         if etree.QName(self.wb).namespace != NS.main:
             raise PackageError(f"'{label}': the workbook part uses namespace "
                                f"'{etree.QName(self.wb).namespace}', not transitional SpreadsheetML; "
-                               "save it as an ordinary .xlsx workbook")
+                               "save it as an ordinary .xlsx workbook", workbook=label, part=wb_name)
         wb_rels_name = zs.find(rels_part_of(wb_name))
         self.wb_rels_name = wb_rels_name or rels_part_of(wb_name)
         self.wb_rels = Rels(wb_name, self.parse(wb_rels_name) if wb_rels_name else None)
@@ -89,7 +91,8 @@ class Source:
         self.date1904 = pr is not None and pr.get("date1904", "0").lower() in ("1", "true")
         self.sheets_el = self.child(self.wb, "sheets")
         if self.sheets_el is None:
-            raise PackageError(f"'{label}': the workbook part has no <sheets> list")
+            raise PackageError(f"'{label}': the workbook part has no <sheets> list",
+                               workbook=label, part=wb_name)
         self.custom_name: str | None = None
         self.custom: etree._Element | None = None
         customs = self.root_rels.by_type(REL.custom_properties)

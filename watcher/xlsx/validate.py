@@ -30,8 +30,8 @@ from pathlib import Path
 
 from lxml import etree
 
-from sheetfns.errors import InputError, PackageError
 from watcher.xlsx.archive import ZipSource
+from watcher.xlsx.errors import PackageError, SheetNameError
 from watcher.xlsx.opc import CT, NS, REL, ContentTypes, Rels, parse_xml
 from watcher.xlsx.spec import check_sheet_name
 
@@ -178,8 +178,8 @@ class _Checker:
             name = el.get("name", "")
             try:
                 check_sheet_name(name)
-            except InputError as exc:
-                if "reserved" not in str(exc):
+            except SheetNameError as exc:
+                if exc.rule != "reserved":
                     self.bad(f"workbook: {exc}")
             key = name.casefold()
             if key in names:

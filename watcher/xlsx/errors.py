@@ -1,0 +1,115 @@
+"""The workbook writer's own exceptions. Every one is a ``ValueError`` (catch :class:`XlsxError` for all).
+
+Each error carries what it is about as attributes, so a caller reads ``exc.workbook``, ``exc.sheet``,
+``exc.part`` or ``exc.limit`` instead of parsing the message; the message (``str(exc)``) is the plain
+sentence for the user: what is wrong, where, and what to do.
+
+::
+
+    XlsxError                  base of every error the writer raises on purpose
+    +-- SpecError              a sheet description (SheetSpec, Table, Column, ...) or an argument is invalid
+    |   +-- SheetNameError     a sheet name breaks a rule of the format (.name, .rule, .limit)
+    +-- PackageError           the workbook cannot be read or written safely (.workbook, .part, .limit)
+        +-- OwnershipError     a sheet to write or remove is the user's, not tocsin's (.sheet)
+        +-- ConcurrentEditError  the workbook changed on disk while tocsin computed; nothing written
+"""
+from __future__ import annotations
+
+__all__ = ["ConcurrentEditError", "OwnershipError", "PackageError", "SheetNameError", "SpecError",
+           "XlsxError"]
+
+
+class XlsxError(ValueError):
+    """Base class of every error the workbook writer raises on purpose.
+
+    Attributes
+    ----------
+    workbook : str or None
+        The workbook's file name, where the error concerns one.
+    """
+
+    def __init__(self, message: str, *, workbook: str | None = None) -> None:
+        super().__init__(message)
+        self.workbook = workbook
+
+
+class SpecError(XlsxError):
+    """A description of a sheet (:class:`~watcher.xlsx.spec.SheetSpec`, its blocks and charts) or an
+    argument of :func:`~watcher.xlsx.package.write` is invalid; raised before any file is touched.
+
+    Attributes
+    ----------
+    where : str or None
+        The thing that is wrong, e.g. ``"Table at C3"`` or ``"chart 'ROC curve'"``.
+    """
+
+    def __init__(self, message: str, *, where: str | None = None, workbook: str | None = None) -> None:
+        super().__init__(message, workbook=workbook)
+        self.where = where
+
+
+class SheetNameError(SpecError):
+    """A sheet name breaks one of the format's rules (:func:`~watcher.xlsx.spec.check_sheet_name`).
+
+    Attributes
+    ----------
+    name : object
+        The name as given.
+    rule : str
+        Which rule: ``"type"`` (not text), ``"empty"``, ``"length"``, ``"characters"`` (one of
+        ``[]:*?/\\``), ``"control"`` (a control character), ``"apostrophe"`` (at the start or end),
+        ``"reserved"`` (``History``).
+    limit : int or None
+        The limit a ``"length"`` error broke (31).
+    """
+
+    def __init__(self, message: str, *, name: object = None, rule: str = "",
+                 limit: int | None = None) -> None:
+        super().__init__(message, where="sheet name")
+        self.name = name
+        self.rule = rule
+        self.limit = limit
+
+
+class PackageError(XlsxError):
+    """A workbook package cannot be read or written safely (not a zip, truncated, unsafe XML, too big,
+    a file-system failure, ...); nothing was changed.
+
+    Attributes
+    ----------
+    workbook : str or None
+        The workbook's file name.
+    part : str or None
+        The package member concerned, if one is (e.g. ``"xl/workbook.xml"``).
+    limit : int or None
+        The limit that was exceeded, in bytes (or members), if the error is about one.
+    """
+
+    def __init__(self, message: str, *, workbook: str | None = None, part: str | None = None,
+                 limit: int | None = None) -> None:
+        super().__init__(message, workbook=workbook)
+        self.part = part
+        self.limit = limit
+
+
+class OwnershipError(PackageError):
+    """A sheet tocsin was asked to write or remove is not tocsin's (a user's sheet of that name).
+
+    Attributes
+    ----------
+    sheet : str or None
+        The sheet's name as the workbook spells it.
+    unmarked : bool
+        True when the sheet has tocsin's name in tocsin's record but not tocsin's mark on the sheet
+        (someone made it after deleting tocsin's).
+    """
+
+    def __init__(self, message: str, *, workbook: str | None = None, sheet: str | None = None,
+                 unmarked: bool = False) -> None:
+        super().__init__(message, workbook=workbook)
+        self.sheet = sheet
+        self.unmarked = unmarked
+
+
+class ConcurrentEditError(PackageError):
+    """The workbook changed on disk while tocsin read it or computed; nothing was written (try later)."""

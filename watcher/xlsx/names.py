@@ -1,0 +1,106 @@
+"""File-name rules: which files are workbooks, which are owner files of an open workbook, and the names
+of tocsin's own temporary files. One home for all of them: the writer names its temporary files here,
+the watcher ignores them and waits on owner files by these rules.
+
+* Workbooks: ``*.xlsx`` and ``*.xlsm`` (any case), except owner and temporary files.
+* Owner files (a spreadsheet program keeps one beside a workbook while it is open): ``~$name`` and
+  ``.~lock.name#`` (common practice of the two families of programs); for long names one family
+  replaces the first two characters of the name by ``~$`` instead (recalled from memory).
+* tocsin's temporary files: ``.tocsin-<stem>-<random>.tmp`` in the workbook's folder.
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+__all__ = [
+    "TOCSIN_TEMP_PREFIX",
+    "WORKBOOK_SUFFIXES",
+    "is_temp_of",
+    "is_workbook_name",
+    "owner_file",
+    "owner_file_candidates",
+    "temp_affixes",
+    "workbook_of_owner_file",
+]
+
+WORKBOOK_SUFFIXES = (".xlsx", ".xlsm")
+TOCSIN_TEMP_PREFIX = ".tocsin-"
+"""How every temporary file tocsin writes beside a workbook starts (the watcher ignores such files)."""
+_TEMP_SUFFIX = ".tmp"
+_EXCEL_OWNER_PREFIX = "~$"
+_LIBRE_LOCK_PREFIX = ".~lock."
+_LIBRE_LOCK_SUFFIX = "#"
+
+
+def is_workbook_name(name: str) -> bool:
+    """True when a file name is a workbook tocsin may refresh (not a temporary or owner file).
+
+    Parameters
+    ----------
+    name : str
+        The file name (the last path component).
+
+    Examples
+    --------
+    >>> [is_workbook_name(n) for n in ("ferry.xlsx", "Pumps.XLSM", "~$ferry.xlsx", ".tocsin-ab12.tmp")]
+    [True, True, False, False]
+    """
+    lower = name.lower()
+    if not lower.endswith(WORKBOOK_SUFFIXES):
+        return False
+    return not (
+        name.startswith(_EXCEL_OWNER_PREFIX)
+        or name.startswith(_LIBRE_LOCK_PREFIX)
+        or name.startswith(TOCSIN_TEMP_PREFIX)
+    )
+
+
+def temp_affixes(workbook: Path) -> tuple[str, str]:
+    """``(prefix, suffix)`` of the temporary files a write of ``workbook`` makes in its folder:
+    ``('.tocsin-<stem>-', '.tmp')``; the random part goes between them."""
+    return f"{TOCSIN_TEMP_PREFIX}{workbook.stem}-", _TEMP_SUFFIX
+
+
+def is_temp_of(name: str, workbook: Path) -> bool:
+    """True when the file name ``name`` is a temporary file of a write of ``workbook``."""
+    prefix, suffix = temp_affixes(workbook)
+    return name.startswith(prefix) and name.endswith(suffix) and len(name) > len(prefix) + len(suffix)
+
+
+def owner_file_candidates(path: Path) -> tuple[Path, ...]:
+    """The owner files that, when present, mean ``path`` is open in a spreadsheet program.
+
+    ``~$name`` and ``.~lock.name#`` (common practice of the two families of programs). For long names
+    one family replaces the first two characters of the name by ``~$`` instead of prefixing it
+    (recalled from memory), so ``~$`` + ``name[2:]`` is checked as well.
+    """
+    name = path.name
+    candidates = [path.with_name(_EXCEL_OWNER_PREFIX + name)]
+    if len(name) > 2:
+        candidates.append(path.with_name(_EXCEL_OWNER_PREFIX + name[2:]))
+    candidates.append(path.with_name(_LIBRE_LOCK_PREFIX + name + _LIBRE_LOCK_SUFFIX))
+    return tuple(candidates)
+
+
+def owner_file(path: Path) -> Path | None:
+    """The owner file of ``path`` that exists now, or None when the workbook is not open anywhere."""
+    for candidate in owner_file_candidates(path):
+        if candidate.exists():
+            return candidate
+    return None
+
+
+def workbook_of_owner_file(path: Path) -> Path | None:
+    """The workbook an owner file belongs to (``~$ferry.xlsx`` -> ``ferry.xlsx``), or None.
+
+    Only the untruncated forms map back; a waiting workbook notices a truncated owner file's removal by
+    polling (see ``watcher.watch.debounce.Debouncer``).
+    """
+    name = path.name
+    if name.startswith(_LIBRE_LOCK_PREFIX) and name.endswith(_LIBRE_LOCK_SUFFIX):
+        inner = name[len(_LIBRE_LOCK_PREFIX):-len(_LIBRE_LOCK_SUFFIX)]
+    elif name.startswith(_EXCEL_OWNER_PREFIX):
+        inner = name[len(_EXCEL_OWNER_PREFIX):]
+    else:
+        return None
+    return path.with_name(inner) if is_workbook_name(inner) else None
