@@ -35,11 +35,9 @@ class NS:
     ct = "http://schemas.openxmlformats.org/package/2006/content-types"
     custom = "http://schemas.openxmlformats.org/officeDocument/2006/custom-properties"
     vt = "http://schemas.openxmlformats.org/officeDocument/2006/docPropsVTypes"
-    mc = "http://schemas.openxmlformats.org/markup-compatibility/2006"
     c = "http://schemas.openxmlformats.org/drawingml/2006/chart"
     a = "http://schemas.openxmlformats.org/drawingml/2006/main"
     xdr = "http://schemas.openxmlformats.org/drawingml/2006/spreadsheetDrawing"
-    strict_main = "http://purl.oclc.org/ooxml/spreadsheetml/main"
 
 
 class REL:

@@ -66,7 +66,6 @@ class Plan:
     """Everything one write changes, before any byte is written."""
 
     src: Source
-    specs: list[SheetSpec]
     added: list[str] = field(default_factory=list)
     replaced: list[str] = field(default_factory=list)
     removed: list[str] = field(default_factory=list)
@@ -122,7 +121,7 @@ def check_request(src: Source, specs: Sequence[SheetSpec], remove: Sequence[str]
 
 def make_plan(src: Source, specs: Sequence[SheetSpec], state: dict, remove: Sequence[str], *,
               owned: bool = True) -> Plan:
-    plan = Plan(src, list(specs))
+    plan = Plan(src)
     wb, wb_rels, ct = src.wb, src.wb_rels, src.ct
     by_key = {s.name.casefold(): s for s in src.sheets}
     sheet_els = [el for el in src.sheets_el if _local(el) == "sheet"]
