@@ -198,10 +198,12 @@ class ZipWriter:
         comp = zlib.compressobj(level, zlib.DEFLATED, -15)
 
         def worker() -> None:
+            ended = False
             try:
                 while True:
                     chunk = work.get()
                     if chunk is None:
+                        ended = True
                         tail = comp.flush()
                         fh.write(tail)
                         state["csize"] += len(tail)
@@ -214,7 +216,9 @@ class ZipWriter:
                         state["csize"] += len(out)
             except BaseException as exc:  # noqa: BLE001 - handed to the producer below
                 state["error"] = exc
-                while work.get() is not None:
+                # let a producer blocked on the full queue go on, up to its end marker; never wait for
+                # one when the failing write was the last (the end marker is already taken)
+                while not ended and work.get() is not None:
                     pass
 
         thread = threading.Thread(target=worker, name="tocsin-zip-deflate", daemon=True)
@@ -228,8 +232,12 @@ class ZipWriter:
         finally:
             work.put(None)
             thread.join()
-        if state["error"] is not None:
-            raise state["error"]
+        error = state["error"]
+        if isinstance(error, Exception) and not isinstance(error, (OSError, PackageError)):
+            raise PackageError(f"internal error: compressing part '{name}' failed ({type(error).__name__}: "
+                               f"{error})", part=name) from error
+        if error is not None:
+            raise error  # an OSError (no space, ...) for the caller to name, or KeyboardInterrupt & co
         size, csize, crc = state["size"], state["csize"], state["crc"]
         if size >= _LIMIT32 or csize >= _LIMIT32 or offset >= _LIMIT32:
             raise PackageError(f"part '{name}' would be 4 GiB or more; packages that large are not written",

@@ -12,11 +12,12 @@ sentence for the user: what is wrong, where, and what to do.
     +-- PackageError           the workbook cannot be read or written safely (.workbook, .part, .limit)
         +-- OwnershipError     a sheet to write or remove is the user's, not tocsin's (.sheet)
         +-- ConcurrentEditError  the workbook changed on disk while tocsin computed; nothing written
+        +-- WriteError         the new package could not be written (disk full, quota, I/O error, ...)
 """
 from __future__ import annotations
 
 __all__ = ["ConcurrentEditError", "OwnershipError", "PackageError", "SheetNameError", "SpecError",
-           "XlsxError"]
+           "WriteError", "XlsxError"]
 
 
 class XlsxError(ValueError):
@@ -113,3 +114,22 @@ class OwnershipError(PackageError):
 
 class ConcurrentEditError(PackageError):
     """The workbook changed on disk while tocsin read it or computed; nothing was written (try later)."""
+
+
+class WriteError(PackageError):
+    """The new package could not be written beside the workbook (no space left, a quota, an I/O error,
+    ...); the temporary file is removed and the workbook is as it was.
+
+    Attributes
+    ----------
+    folder : str or None
+        The folder the write went to.
+    errno : int or None
+        The operating system's error number (``errno.ENOSPC``, ``errno.EDQUOT``, ``errno.EIO``, ...).
+    """
+
+    def __init__(self, message: str, *, workbook: str | None = None, folder: str | None = None,
+                 errno: int | None = None) -> None:
+        super().__init__(message, workbook=workbook)
+        self.folder = folder
+        self.errno = errno

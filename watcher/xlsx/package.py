@@ -59,7 +59,6 @@ from __future__ import annotations
 import hashlib
 import json
 import os
-import tempfile
 import time
 import zipfile
 from collections.abc import Sequence
@@ -68,9 +67,10 @@ from pathlib import Path
 
 from watcher.xlsx.archive import MAX_TOTAL
 from watcher.xlsx.errors import ConcurrentEditError, PackageError, SpecError
-from watcher.xlsx.names import is_temp_of, temp_affixes
+from watcher.xlsx.names import is_temp_of
 from watcher.xlsx.plan import check_request, make_plan
 from watcher.xlsx.plan import emit as _emit
+from watcher.xlsx.replace import create_temp, remove_quietly, write_error
 from watcher.xlsx.source import MARKER_PREFIX, SHEET_MARK, SheetInfo, Source
 from watcher.xlsx.spec import SheetSpec
 
@@ -299,25 +299,22 @@ def write(path: str | os.PathLike, sheets: Sequence[SheetSpec], *, state: dict,
     plan = make_plan(src, sheets, state, remove, owned=owned)
     folder = path.parent
     _cleanup_stale_temps(path)
-    prefix, suffix = temp_affixes(path)
+    fd, tmp = create_temp(path)
     try:
-        fd, tmp_name = tempfile.mkstemp(prefix=prefix, suffix=suffix, dir=folder)
-    except OSError as exc:
-        raise PackageError(f"cannot create a temporary file beside '{label}': {exc.strerror or exc}",
-                           workbook=label) from exc
-    tmp = Path(tmp_name)
-    try:
-        with os.fdopen(fd, "w+b") as fh:
-            written_new = _emit(plan, fh)
-            fh.flush()
-            os.fsync(fh.fileno())
-            digest, size = _digest(fh)
-            try:  # the new package opens as a zip and holds what was written
-                with zipfile.ZipFile(fh) as check:
-                    present = {n.casefold() for n in check.namelist()}
-            except zipfile.BadZipFile as exc:
-                raise PackageError(f"internal error: the new package of '{label}' does not open",
-                                   workbook=label) from exc
+        try:
+            with os.fdopen(fd, "w+b") as fh:
+                written_new = _emit(plan, fh)
+                fh.flush()
+                os.fsync(fh.fileno())
+                digest, size = _digest(fh)
+                try:  # the new package opens as a zip and holds what was written
+                    with zipfile.ZipFile(fh) as check:
+                        present = {n.casefold() for n in check.namelist()}
+                except zipfile.BadZipFile as exc:
+                    raise PackageError(f"internal error: the new package of '{label}' does not open",
+                                       workbook=label) from exc
+        except OSError as exc:  # no space, a quota, an I/O error: in the writer or its deflate thread
+            raise write_error(exc, path) from exc
         missing = [n for n in written_new if n.casefold() not in present]
         if missing:
             raise PackageError(f"internal error: the new package of '{label}' lacks {missing}",
@@ -330,10 +327,7 @@ def write(path: str | os.PathLike, sheets: Sequence[SheetSpec], *, state: dict,
             raise PackageError(f"cannot replace '{label}' (is it open in a spreadsheet program?): "
                                f"{exc.strerror or exc}", workbook=label) from exc
     except BaseException:
-        try:
-            tmp.unlink()
-        except OSError:
-            pass
+        remove_quietly(tmp)
         raise
     _fsync_dir(folder)
     st = os.stat(path)

@@ -1,0 +1,175 @@
+"""Writes that fail on the way: a nearly full disk (a real 2 MB tmpfs, filled to several levels), a file
+that fails at every single write call of a part, I/O errors and quotas. Each write returns within a time
+bound (run in a thread, so a hang fails the test instead of hanging pytest), ends with a clear
+WriteError naming the workbook and the cause, leaves no temporary file and the workbook byte-identical."""
+from __future__ import annotations
+
+import errno
+import io
+import os
+import shutil
+import subprocess
+import threading
+import time
+import zlib
+from pathlib import Path
+
+import corpus
+import pytest
+
+from watcher.xlsx import archive
+from watcher.xlsx import package as pkg
+from watcher.xlsx.errors import PackageError, WriteError
+from watcher.xlsx.package import Package, write
+
+PUMP = Path(__file__).resolve().parent.parent / "sample_workbooks" / "pump_station.xlsx"
+BOUND = 30.0  # seconds a failing write may take at most (it takes well under one)
+
+
+def _in_thread(fn, bound: float = BOUND):
+    """Run ``fn`` in a daemon thread; return ("ok", value) or ("error", exc); fail if it is not done in
+    ``bound`` seconds (a hang)."""
+    out: dict = {}
+
+    def run():
+        try:
+            out["ok"] = fn()
+        except BaseException as exc:  # noqa: BLE001 - reported to the test
+            out["error"] = exc
+
+    t = threading.Thread(target=run, daemon=True, name="test-write")
+    t.start()
+    t.join(bound)
+    assert not t.is_alive(), f"the write did not return within {bound} s (it hangs)"
+    return ("ok", out["ok"]) if "ok" in out else ("error", out["error"])
+
+
+def _temps(folder: Path) -> list[str]:
+    return sorted(p.name for p in folder.iterdir() if p.name.startswith(".tocsin-"))
+
+
+# -- a real nearly full disk ---------------------------------------------------------------------------
+@pytest.fixture
+def small_tmpfs(tmp_path):
+    """A 2 MB tmpfs (needs root and permission to mount; skipped with the reason otherwise)."""
+    mnt = tmp_path / "mnt"
+    mnt.mkdir()
+    if os.geteuid() != 0 or not shutil.which("mount"):
+        pytest.skip("mounting a tmpfs needs root (the full-disk tests run as root in CI)")
+
+    def mount():
+        proc = subprocess.run(["mount", "-t", "tmpfs", "-o", "size=2m", "tmpfs", str(mnt)],
+                              capture_output=True, text=True)
+        if proc.returncode != 0:
+            pytest.skip(f"mounting a tmpfs is not permitted here: {proc.stderr.strip()}")
+
+    def unmount():
+        subprocess.run(["umount", "-l", str(mnt)], capture_output=True)
+
+    yield mnt, mount, unmount
+    unmount()
+
+
+def test_a_nearly_full_disk_never_hangs_the_write(small_tmpfs, tmp_path):
+    mnt, mount, unmount = small_tmpfs
+    spec, _ = corpus.forecast_spec("Fc", n=4000)  # invented data; a new package of about 350 KB
+    roomy = tmp_path / "roomy.xlsx"
+    shutil.copy(PUMP, roomy)
+    write(roomy, [spec], state={}, expect=None)
+    need = roomy.stat().st_size // 1024
+    # 100-400 KB free in steps, and 4 KB steps around the size of the new package, where the last
+    # write calls (the end of the deflate stream, the central directory) are the ones that fail
+    levels = sorted(set(range(100, 401, 25)) | set(range(need - 40, need + 12, 4)))
+    outcomes = []
+    for free_kb in levels:
+        mount()
+        try:
+            book = mnt / "pump_station.xlsx"
+            shutil.copy(PUMP, book)
+            st = os.statvfs(mnt)
+            with open(mnt / "filler", "wb") as fh:
+                fh.write(b"\0" * max(st.f_bavail * st.f_frsize - free_kb * 1024, 0))
+            before = book.read_bytes()
+            t0 = time.monotonic()
+            kind, value = _in_thread(lambda book=book: write(book, [spec], state={}, expect=None))
+            assert time.monotonic() - t0 < BOUND
+            assert _temps(mnt) == [], f"{free_kb} KB free: temporary file left behind"
+            if kind == "ok":
+                assert Package.open(book).owned == ("Fc",)
+            else:
+                assert isinstance(value, WriteError), f"{free_kb} KB free: {value!r}"
+                assert str(value) == (f"cannot write 'pump_station.xlsx': no space left on the device "
+                                      f"holding '{mnt}'; the workbook was left as it was")
+                assert (value.errno, value.folder, value.workbook) == (errno.ENOSPC, str(mnt),
+                                                                       "pump_station.xlsx")
+                assert book.read_bytes() == before
+            outcomes.append(kind)
+        finally:
+            unmount()
+    assert "error" in outcomes and "ok" in outcomes  # both sides of the edge were tried
+
+
+# -- a failure at every write call of a streamed part -------------------------------------------------
+class _FailingFile(io.BytesIO):
+    """A file whose ``fail_at``-th write call raises ``OSError(code)`` (0: never; counts the calls)."""
+
+    def __init__(self, fail_at: int = 0, code: int = errno.ENOSPC) -> None:
+        super().__init__()
+        self.calls, self.fail_at, self.code = 0, fail_at, code
+
+    def write(self, data) -> int:
+        self.calls += 1
+        if self.calls == self.fail_at:
+            raise OSError(self.code, os.strerror(self.code))
+        return super().write(data)
+
+
+def _stream(fh) -> None:
+    chunks = [os.urandom(50_000) for _ in range(6)] + [b"x" * 200_000]  # invented data
+    zw = archive.ZipWriter(fh)
+    zw.write_stream("xl/worksheets/sheet9.xml", iter(chunks), level=1)
+    zw.close()
+
+
+def test_a_failure_at_any_write_call_of_a_stream_ends_it():
+    counter = _FailingFile()
+    _stream(counter)
+    assert counter.calls > 5
+    for k in range(1, counter.calls + 1):  # the last ones write the end of the stream and the directory
+        kind, value = _in_thread(lambda k=k: _stream(_FailingFile(k)))
+        assert kind == "error" and isinstance(value, OSError) and value.errno == errno.ENOSPC, (k, value)
+
+
+def test_an_unexpected_error_in_the_deflate_thread_is_a_package_error(monkeypatch):
+    class Broken:
+        def compress(self, data):
+            raise zlib.error("invented failure")
+
+        def flush(self):
+            return b""
+
+    monkeypatch.setattr(archive.zlib, "compressobj", lambda *a: Broken())
+    kind, value = _in_thread(lambda: _stream(io.BytesIO()))
+    assert kind == "error" and isinstance(value, PackageError) and not isinstance(value, WriteError)
+    assert "compressing part 'xl/worksheets/sheet9.xml' failed (error: invented failure)" in str(value)
+    assert value.part == "xl/worksheets/sheet9.xml"
+
+
+@pytest.mark.parametrize("code, cause", [
+    (errno.EIO, "an input/output error on the device holding"),
+    (errno.EDQUOT, "the disk quota of the user running tocsin is used up on"),
+])
+def test_io_errors_and_quotas_are_named(tmp_path, monkeypatch, code, cause):
+    book = tmp_path / "pump_station.xlsx"
+    shutil.copy(PUMP, book)
+    before = book.read_bytes()
+
+    def failing_fsync(fd):
+        raise OSError(code, os.strerror(code))
+
+    monkeypatch.setattr(pkg.os, "fsync", failing_fsync)
+    spec, _ = corpus.forecast_spec("Fc", n=50)
+    with pytest.raises(WriteError, match=f"cannot write 'pump_station.xlsx': {cause} '{tmp_path}'") as err:
+        write(book, [spec], state={}, expect=None)
+    assert err.value.errno == code
+    assert book.read_bytes() == before and _temps(tmp_path) == []
