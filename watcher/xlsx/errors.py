@@ -13,11 +13,12 @@ sentence for the user: what is wrong, where, and what to do.
         +-- OwnershipError     a sheet to write or remove is the user's, not tocsin's (.sheet)
         +-- ConcurrentEditError  the workbook changed on disk while tocsin computed; nothing written
         +-- WriteError         the new package could not be written (disk full, quota, I/O error, ...)
+        +-- ReadOnlyWorkbookError  the workbook is read-only (for everyone, or for tocsin's user)
 """
 from __future__ import annotations
 
 __all__ = ["ConcurrentEditError", "OwnershipError", "PackageError", "SheetNameError", "SpecError",
-           "WriteError", "XlsxError"]
+           "ReadOnlyWorkbookError", "WriteError", "XlsxError"]
 
 
 class XlsxError(ValueError):
@@ -133,3 +134,28 @@ class WriteError(PackageError):
         super().__init__(message, workbook=workbook)
         self.folder = folder
         self.errno = errno
+
+
+class ReadOnlyWorkbookError(PackageError):
+    """The workbook is read-only and is left alone: no write permission bit for anyone (``reason``
+    ``"mode"``), or the user running tocsin may not write it (``reason`` ``"permission"``).
+
+    Attributes
+    ----------
+    mode : int or None
+        The workbook's permission bits (e.g. ``0o444``).
+    owner : int or None
+        The workbook owner's user id.
+    user : int or None
+        The user id tocsin runs as.
+    reason : str
+        ``"mode"`` or ``"permission"``.
+    """
+
+    def __init__(self, message: str, *, workbook: str | None = None, mode: int | None = None,
+                 owner: int | None = None, user: int | None = None, reason: str = "mode") -> None:
+        super().__init__(message, workbook=workbook)
+        self.mode = mode
+        self.owner = owner
+        self.user = user
+        self.reason = reason

@@ -6,7 +6,9 @@ the watcher ignores them and waits on owner files by these rules.
 * Owner files (a spreadsheet program keeps one beside a workbook while it is open): ``~$name`` and
   ``.~lock.name#`` (common practice of the two families of programs); for long names one family
   replaces the first two characters of the name by ``~$`` instead (recalled from memory).
-* tocsin's temporary files: ``.tocsin-<stem>-<random>.tmp`` in the workbook's folder.
+* tocsin's temporary files: ``.tocsin-<stem>-<random>.tmp`` in the workbook's folder; while a workbook
+  is rewritten in place, the complete new package waits beside it as ``.tocsin-<stem>-<random>.copy.xlsx``
+  (``.xlsm`` for a macro workbook), so an interrupted write loses nothing.
 """
 from __future__ import annotations
 
@@ -15,6 +17,8 @@ from pathlib import Path
 __all__ = [
     "TOCSIN_TEMP_PREFIX",
     "WORKBOOK_SUFFIXES",
+    "copy_name",
+    "is_copy_of",
     "is_temp_of",
     "is_workbook_name",
     "owner_file",
@@ -27,6 +31,7 @@ WORKBOOK_SUFFIXES = (".xlsx", ".xlsm")
 TOCSIN_TEMP_PREFIX = ".tocsin-"
 """How every temporary file tocsin writes beside a workbook starts (the watcher ignores such files)."""
 _TEMP_SUFFIX = ".tmp"
+_COPY_INFIX = ".copy"
 _EXCEL_OWNER_PREFIX = "~$"
 _LIBRE_LOCK_PREFIX = ".~lock."
 _LIBRE_LOCK_SUFFIX = "#"
@@ -64,6 +69,19 @@ def temp_affixes(workbook: Path) -> tuple[str, str]:
 def is_temp_of(name: str, workbook: Path) -> bool:
     """True when the file name ``name`` is a temporary file of a write of ``workbook``."""
     prefix, suffix = temp_affixes(workbook)
+    return name.startswith(prefix) and name.endswith(suffix) and len(name) > len(prefix) + len(suffix)
+
+
+def copy_name(temp: Path, workbook: Path) -> Path:
+    """The name a temporary file of ``workbook`` takes while the workbook is rewritten in place:
+    ``.tocsin-<stem>-<random>.copy.xlsx``."""
+    return temp.with_name(temp.name[:-len(_TEMP_SUFFIX)] + _COPY_INFIX + workbook.suffix.lower())
+
+
+def is_copy_of(name: str, workbook: Path) -> bool:
+    """True when the file name ``name`` is the complete new copy of an in-place write of ``workbook``."""
+    prefix, _ = temp_affixes(workbook)
+    suffix = _COPY_INFIX + workbook.suffix.lower()
     return name.startswith(prefix) and name.endswith(suffix) and len(name) > len(prefix) + len(suffix)
 
 

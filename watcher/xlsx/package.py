@@ -19,6 +19,9 @@ Public API
     written; try again later). Returns a :class:`WriteResult`.
 ``validate(path)``
     Structural problems of a package as messages (see :mod:`watcher.xlsx.validate`).
+``check_writable(path)``
+    Raises :class:`~watcher.xlsx.errors.ReadOnlyWorkbookError` for a workbook that is read-only (no write
+    bit for anyone, or not writable by the user running tocsin); ``write`` raises it too, before writing.
 
 The work is split: :mod:`watcher.xlsx.source` reads a package, :mod:`watcher.xlsx.plan` plans and emits a
 write, :mod:`watcher.xlsx.worksheet` and :mod:`watcher.xlsx.chart` produce tocsin's parts,
@@ -67,15 +70,25 @@ from pathlib import Path
 
 from watcher.xlsx.archive import MAX_TOTAL
 from watcher.xlsx.errors import ConcurrentEditError, PackageError, SpecError
-from watcher.xlsx.names import is_temp_of
+from watcher.xlsx.names import is_copy_of, is_temp_of
 from watcher.xlsx.plan import check_request, make_plan
 from watcher.xlsx.plan import emit as _emit
-from watcher.xlsx.replace import create_temp, remove_quietly, write_error
+from watcher.xlsx.replace import (
+    check_writable,
+    copy_meta,
+    create_temp,
+    fsync_dir,
+    read_meta,
+    remove_quietly,
+    write_error,
+    write_in_place,
+)
+from watcher.xlsx.replace import digest as file_digest
 from watcher.xlsx.source import MARKER_PREFIX, SHEET_MARK, SheetInfo, Source
 from watcher.xlsx.spec import SheetSpec
 
 __all__ = ["Fingerprint", "Package", "SheetInfo", "WriteResult", "MARKER_PREFIX", "SHEET_MARK",
-           "fingerprint_of", "validate", "write"]
+           "check_writable", "fingerprint_of", "validate", "write"]
 
 _STALE_TEMP_SECONDS = 3600
 
@@ -136,6 +149,23 @@ def _read_file(path: Path) -> tuple[bytes, Fingerprint]:
     return data, fingerprint_of(data, after)
 
 
+def _source(data: bytes, path: Path) -> Source:
+    """The package read from ``data``; a damaged workbook with the complete copy of an interrupted
+    in-place write beside it says where that copy is."""
+    try:
+        return Source(data, path.name)
+    except PackageError as exc:
+        try:
+            copies = sorted(e.name for e in os.scandir(path.parent) if is_copy_of(e.name, path))
+        except OSError:
+            copies = []
+        if not copies:
+            raise
+        raise PackageError(f"{exc}; an interrupted tocsin write left the complete new workbook beside it as "
+                           f"'{copies[-1]}': rename that file to '{path.name}'", workbook=path.name,
+                           part=exc.part) from exc
+
+
 # -- the public reader ---------------------------------------------------------------------------
 @dataclass(frozen=True)
 class Package:
@@ -154,7 +184,7 @@ class Package:
         """Read the workbook at ``path`` safely."""
         path = Path(os.path.realpath(path))
         data, fp = _read_file(path)
-        src = Source(data, path.name)
+        src = _source(data, path)
         return cls(path, fp, tuple(src.sheets), src.date1904, src.macro_enabled,
                    json.loads(json.dumps(src.marker["state"])), src.marker_problem)
 
@@ -191,49 +221,6 @@ def _cleanup_stale_temps(path: Path) -> None:
                     pass
     except OSError:
         pass
-
-
-def _digest(fh) -> tuple[str, int]:
-    """SHA-256 and size of a file read from its start in 1 MiB pieces."""
-    fh.seek(0)
-    sha = hashlib.sha256()
-    size = 0
-    while chunk := fh.read(1 << 20):
-        sha.update(chunk)
-        size += len(chunk)
-    return sha.hexdigest(), size
-
-
-def _copy_owner_and_mode(path: Path, tmp: Path) -> None:
-    """Give the new file the old one's permission bits (and owner and group where allowed)."""
-    try:
-        st = os.stat(path)
-    except OSError:
-        return
-    try:
-        os.chmod(tmp, st.st_mode & 0o7777)
-    except OSError:
-        pass
-    if hasattr(os, "chown"):
-        try:
-            os.chown(tmp, st.st_uid, st.st_gid)
-        except OSError:
-            pass
-
-
-def _fsync_dir(folder: Path) -> None:
-    if os.name != "posix":
-        return
-    try:
-        fd = os.open(folder, os.O_RDONLY)
-    except OSError:
-        return
-    try:
-        os.fsync(fd)
-    except OSError:
-        pass
-    finally:
-        os.close(fd)
 
 
 def _still_same(path: Path, expect: Fingerprint, label: str) -> None:
@@ -290,11 +277,12 @@ def write(path: str | os.PathLike, sheets: Sequence[SheetSpec], *, state: dict,
     if isinstance(remove, str):
         remove = (remove,)
     data, fp = _read_file(path)
+    check_writable(path)
     if expect is not None and not fp.same_bytes(expect):
         raise ConcurrentEditError(f"workbook '{label}' was saved by someone else since tocsin read it; "
                                   "nothing was written, try again later", workbook=label)
     expect = fp
-    src = Source(data, label)
+    src = _source(data, path)
     check_request(src, sheets, remove, owned=owned)
     plan = make_plan(src, sheets, state, remove, owned=owned)
     folder = path.parent
@@ -306,7 +294,7 @@ def write(path: str | os.PathLike, sheets: Sequence[SheetSpec], *, state: dict,
                 written_new = _emit(plan, fh)
                 fh.flush()
                 os.fsync(fh.fileno())
-                digest, size = _digest(fh)
+                digest, size = file_digest(fh)
                 try:  # the new package opens as a zip and holds what was written
                     with zipfile.ZipFile(fh) as check:
                         present = {n.casefold() for n in check.namelist()}
@@ -320,16 +308,22 @@ def write(path: str | os.PathLike, sheets: Sequence[SheetSpec], *, state: dict,
             raise PackageError(f"internal error: the new package of '{label}' lacks {missing}",
                                workbook=label)
         _still_same(path, expect, label)
-        _copy_owner_and_mode(path, tmp)
-        try:
-            os.replace(tmp, path)
-        except OSError as exc:
-            raise PackageError(f"cannot replace '{label}' (is it open in a spreadsheet program?): "
-                               f"{exc.strerror or exc}", workbook=label) from exc
+        meta = read_meta(path)
+        in_place = meta is None or meta.nlink > 1 or not copy_meta(meta, tmp)
+        if not in_place:
+            try:
+                os.replace(tmp, path)
+            except PermissionError:  # e.g. a sticky folder: only the owner may rename over the workbook
+                in_place = True
+            except OSError as exc:
+                raise PackageError(f"cannot replace '{label}' (is it open in a spreadsheet program?): "
+                                   f"{exc.strerror or exc}", workbook=label) from exc
+        if in_place:
+            write_in_place(path, tmp, digest, size)
     except BaseException:
         remove_quietly(tmp)
         raise
-    _fsync_dir(folder)
+    fsync_dir(folder)
     st = os.stat(path)
     new_fp = Fingerprint(st.st_size, st.st_mtime_ns, digest)
     return WriteResult(path, new_fp, tuple(plan.added), tuple(plan.replaced), tuple(plan.removed),
