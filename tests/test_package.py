@@ -732,15 +732,24 @@ def test_failure_leaves_no_temporary(tmp_path, books, monkeypatch):
     assert path.read_bytes() == before and not list(tmp_path.glob(".tocsin-*"))
 
 
-def test_stale_temporaries_cleaned(tmp_path, books):
+@pytest.mark.skipif(os.name != "posix", reason="flock")
+def test_abandoned_temporaries_cleaned(tmp_path, books):
+    import fcntl
+
     path = corpus.copy_book(books, "charts", tmp_path)
-    stale = tmp_path / f".tocsin-{path.stem}-dead.tmp"
-    fresh = tmp_path / f".tocsin-{path.stem}-busy.tmp"
-    stale.write_bytes(b"x")
-    fresh.write_bytes(b"x")
-    os.utime(stale, (1, 1))
-    _write(path, [_simple("Fc", [1.0])])
-    assert not stale.exists() and fresh.exists()
+    dead = tmp_path / f".tocsin-{path.stem}-dead.tmp"         # a killed write's: no lock
+    busy = tmp_path / f".tocsin-{path.stem}-busy.tmp"         # a running write's: locked
+    just_made = tmp_path / f".tocsin-{path.stem}-new.tmp"     # empty, seconds old: maybe not locked yet
+    copy = tmp_path / f".tocsin-{path.stem}-old.copy.xlsx"    # an interrupted in-place write's copy
+    other = tmp_path / ".tocsin-other-dead.tmp"               # another workbook's
+    for p in (dead, busy, copy, other):
+        p.write_bytes(b"x")
+    just_made.write_bytes(b"")
+    with open(busy, "rb") as holder:
+        fcntl.flock(holder, fcntl.LOCK_EX)
+        _write(path, [_simple("Fc", [1.0])])
+        assert busy.exists() and just_made.exists() and other.exists()
+        assert not dead.exists() and not copy.exists()
 
 
 @pytest.mark.skipif(os.name != "posix", reason="symbolic links and modes")

@@ -8,7 +8,9 @@ import errno
 import io
 import os
 import shutil
+import signal
 import subprocess
+import sys
 import threading
 import time
 import zlib
@@ -173,3 +175,62 @@ def test_io_errors_and_quotas_are_named(tmp_path, monkeypatch, code, cause):
         write(book, [spec], state={}, expect=None)
     assert err.value.errno == code
     assert book.read_bytes() == before and _temps(tmp_path) == []
+
+
+# -- killed and stopped writes --------------------------------------------------------------------------
+_BIG_WRITE = f"""
+import sys
+sys.path.insert(0, {str(PUMP.parent.parent)!r})
+import numpy as np
+from watcher.xlsx.errors import ConcurrentEditError
+from watcher.xlsx.package import write
+from watcher.xlsx.spec import Column, SheetSpec, Table
+x = np.arange(600_000) / 7.0  # invented data: a sheet big enough to take a few seconds
+try:
+    write(sys.argv[1], [SheetSpec("Big", (Table(0, 0, ("a", "b"), (Column(x), Column(x * 3))),))],
+          state={{}}, expect=None)
+except ConcurrentEditError:
+    sys.exit(3)
+"""
+
+
+def _start_big_write(book: Path) -> tuple[subprocess.Popen, Path]:
+    """A writing process, and its temporary file once it has grown (the write is well under way)."""
+    before = set(_temps(book.parent))
+    proc = subprocess.Popen([sys.executable, "-c", _BIG_WRITE, str(book)])
+    deadline = time.monotonic() + 60
+    while time.monotonic() < deadline:
+        mine = [book.parent / n for n in set(_temps(book.parent)) - before]
+        if mine and mine[0].exists() and mine[0].stat().st_size > 256 * 1024:
+            return proc, mine[0]
+        assert proc.poll() is None, "the writing process ended before it was under way"
+        time.sleep(0.02)
+    proc.kill()
+    raise AssertionError("the writing process made no temporary file within 60 s")
+
+
+@pytest.mark.skipif(os.name != "posix", reason="SIGKILL, SIGSTOP and flock")
+def test_killed_writes_are_cleaned_up_and_running_ones_are_not(tmp_path):
+    book = tmp_path / "pump_station.xlsx"
+    shutil.copy(PUMP, book)
+    before = book.read_bytes()
+    killed = []
+    for _ in range(3):  # each new write removes what the killed one before it left
+        proc, temp = _start_big_write(book)
+        proc.send_signal(signal.SIGKILL)
+        proc.wait(30)
+        killed.append(temp)
+    assert book.read_bytes() == before
+    assert killed[-1].exists() and not killed[0].exists() and not killed[1].exists()
+    stopped, busy = _start_big_write(book)  # the next write of the killed one's: it is removed ...
+    assert not killed[-1].exists()
+    stopped.send_signal(signal.SIGSTOP)  # ... a stopped write still holds its lock
+    try:
+        spec, _ = corpus.forecast_spec("Fc", n=30)
+        write(book, [spec], state={}, expect=None)  # a clean write while the other one is stopped
+        assert busy.exists() and _temps(tmp_path) == [busy.name]
+        assert Package.open(book).owned == ("Fc",)
+    finally:
+        stopped.send_signal(signal.SIGCONT)
+    assert stopped.wait(60) == 3  # it finds the workbook changed: nothing written, its temp removed
+    assert _temps(tmp_path) == [] and Package.open(book).owned == ("Fc",)

@@ -70,15 +70,16 @@ from pathlib import Path
 
 from watcher.xlsx.archive import MAX_TOTAL
 from watcher.xlsx.errors import ConcurrentEditError, PackageError, SpecError
-from watcher.xlsx.names import is_copy_of, is_temp_of
+from watcher.xlsx.names import is_copy_of
 from watcher.xlsx.plan import check_request, make_plan
 from watcher.xlsx.plan import emit as _emit
 from watcher.xlsx.replace import (
+    TempFile,
     check_writable,
     copy_meta,
-    create_temp,
     fsync_dir,
     read_meta,
+    remove_abandoned,
     remove_quietly,
     write_error,
     write_in_place,
@@ -90,7 +91,6 @@ from watcher.xlsx.spec import SheetSpec
 __all__ = ["Fingerprint", "Package", "SheetInfo", "WriteResult", "MARKER_PREFIX", "SHEET_MARK",
            "check_writable", "fingerprint_of", "validate", "write"]
 
-_STALE_TEMP_SECONDS = 3600
 
 
 @dataclass(frozen=True)
@@ -210,19 +210,6 @@ def validate(path: str | os.PathLike) -> list[str]:
     return check_package(path)
 
 
-def _cleanup_stale_temps(path: Path) -> None:
-    now = time.time()
-    try:
-        for entry in os.scandir(path.parent):
-            if is_temp_of(entry.name, path) and now - entry.stat().st_mtime > _STALE_TEMP_SECONDS:
-                try:
-                    os.unlink(entry.path)
-                except OSError:
-                    pass
-    except OSError:
-        pass
-
-
 def _still_same(path: Path, expect: Fingerprint, label: str) -> None:
     try:
         data, now = _read_file(path)
@@ -286,43 +273,44 @@ def write(path: str | os.PathLike, sheets: Sequence[SheetSpec], *, state: dict,
     check_request(src, sheets, remove, owned=owned)
     plan = make_plan(src, sheets, state, remove, owned=owned)
     folder = path.parent
-    _cleanup_stale_temps(path)
-    fd, tmp = create_temp(path)
-    try:
+    remove_abandoned(path)
+    with TempFile(path) as temp:
+        tmp = temp.path
         try:
-            with os.fdopen(fd, "w+b") as fh:
-                written_new = _emit(plan, fh)
-                fh.flush()
-                os.fsync(fh.fileno())
-                digest, size = file_digest(fh)
-                try:  # the new package opens as a zip and holds what was written
-                    with zipfile.ZipFile(fh) as check:
-                        present = {n.casefold() for n in check.namelist()}
-                except zipfile.BadZipFile as exc:
-                    raise PackageError(f"internal error: the new package of '{label}' does not open",
-                                       workbook=label) from exc
-        except OSError as exc:  # no space, a quota, an I/O error: in the writer or its deflate thread
-            raise write_error(exc, path) from exc
-        missing = [n for n in written_new if n.casefold() not in present]
-        if missing:
-            raise PackageError(f"internal error: the new package of '{label}' lacks {missing}",
-                               workbook=label)
-        _still_same(path, expect, label)
-        meta = read_meta(path)
-        in_place = meta is None or meta.nlink > 1 or not copy_meta(meta, tmp)
-        if not in_place:
             try:
-                os.replace(tmp, path)
-            except PermissionError:  # e.g. a sticky folder: only the owner may rename over the workbook
-                in_place = True
-            except OSError as exc:
-                raise PackageError(f"cannot replace '{label}' (is it open in a spreadsheet program?): "
-                                   f"{exc.strerror or exc}", workbook=label) from exc
-        if in_place:
-            write_in_place(path, tmp, digest, size)
-    except BaseException:
-        remove_quietly(tmp)
-        raise
+                with temp.open() as fh:
+                    written_new = _emit(plan, fh)
+                    fh.flush()
+                    os.fsync(fh.fileno())
+                    digest, size = file_digest(fh)
+                    try:  # the new package opens as a zip and holds what was written
+                        with zipfile.ZipFile(fh) as check:
+                            present = {n.casefold() for n in check.namelist()}
+                    except zipfile.BadZipFile as exc:
+                        raise PackageError(f"internal error: the new package of '{label}' does not open",
+                                           workbook=label) from exc
+            except OSError as exc:  # no space, a quota, an I/O error: in the writer or its deflate thread
+                raise write_error(exc, path) from exc
+            missing = [n for n in written_new if n.casefold() not in present]
+            if missing:
+                raise PackageError(f"internal error: the new package of '{label}' lacks {missing}",
+                                   workbook=label)
+            _still_same(path, expect, label)
+            meta = read_meta(path)
+            in_place = meta is None or meta.nlink > 1 or not copy_meta(meta, tmp)
+            if not in_place:
+                try:
+                    os.replace(tmp, path)
+                except PermissionError:  # e.g. a sticky folder: only the owner may rename over the workbook
+                    in_place = True
+                except OSError as exc:
+                    raise PackageError(f"cannot replace '{label}' (is it open in a spreadsheet program?): "
+                                       f"{exc.strerror or exc}", workbook=label) from exc
+            if in_place:
+                write_in_place(path, tmp, digest, size)
+        except BaseException:
+            remove_quietly(tmp)
+            raise
     fsync_dir(folder)
     st = os.stat(path)
     new_fp = Fingerprint(st.st_size, st.st_mtime_ns, digest)

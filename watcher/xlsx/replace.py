@@ -2,7 +2,10 @@
 replace of the workbook by the verified new package.
 
 * The new package is written to ``.tocsin-<stem>-<random>.tmp`` in the workbook's folder
-  (:mod:`watcher.xlsx.names`), so the replace is a rename within one file system.
+  (:mod:`watcher.xlsx.names`), so the replace is a rename within one file system. The writer holds an
+  exclusive ``flock`` on it (:class:`TempFile`); the next write of the workbook removes the temporary
+  files whose lock it can take -- those of killed or stopped writes -- never one still locked
+  (:func:`remove_abandoned`).
 * Every failure of the file system (no space, a quota, an I/O error, ...) while the temporary file is
   written ends the write with a :class:`~watcher.xlsx.errors.WriteError` that names the workbook, the
   folder and the cause; the temporary file is removed and the workbook is left as it was.
@@ -23,16 +26,24 @@ import hashlib
 import os
 import stat
 import tempfile
+import time
 from dataclasses import dataclass
 from pathlib import Path
 
 from watcher.xlsx.errors import PackageError, ReadOnlyWorkbookError, WriteError
-from watcher.xlsx.names import copy_name, temp_affixes
+from watcher.xlsx.names import copy_name, is_copy_of, is_temp_of, temp_affixes
 
-__all__ = ["FileMeta", "check_writable", "copy_meta", "create_temp", "digest", "fsync_dir", "read_meta",
-           "remove_quietly", "write_error", "write_in_place"]
+try:
+    import fcntl  # POSIX
+except ImportError:  # pragma: no cover - Windows: abandoned temporary files are found by age
+    fcntl = None
+
+__all__ = ["FileMeta", "TempFile", "check_writable", "copy_meta", "digest", "fsync_dir", "read_meta",
+           "remove_abandoned", "remove_quietly", "write_error", "write_in_place"]
 
 _PIECE = 1 << 20
+_FRESH_SECONDS = 5.0      # an empty temporary file this young may not be locked yet
+_STALE_SECONDS = 3600.0   # without flock: a temporary file this old is abandoned
 
 _CAUSES = {
     errno.ENOSPC: "no space left on the device holding '{folder}'",
@@ -54,14 +65,83 @@ def write_error(exc: OSError, workbook: Path, *, doing: str = "write") -> WriteE
                       workbook=workbook.name, folder=folder, errno=exc.errno)
 
 
-def create_temp(workbook: Path) -> tuple[int, Path]:
-    """A new, empty temporary file beside ``workbook``: ``(fd, path)``, open for reading and writing."""
-    prefix, suffix = temp_affixes(workbook)
+class TempFile:
+    """A new, empty temporary file beside ``workbook``, locked (``flock``, exclusive) for as long as this
+    object is open, so a later write can tell an abandoned temporary file (its lock is free: the writer
+    was killed) from one in use. :meth:`open` gives a file object for writing; the lock stays when that
+    is closed, and when the file is renamed; :meth:`close` releases it."""
+
+    def __init__(self, workbook: Path) -> None:
+        prefix, suffix = temp_affixes(workbook)
+        try:
+            fd, name = tempfile.mkstemp(prefix=prefix, suffix=suffix, dir=workbook.parent)
+        except OSError as exc:
+            raise write_error(exc, workbook, doing="create a temporary file beside") from exc
+        self.path = Path(name)
+        self._fd = fd
+        if fcntl is not None:
+            try:
+                fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+            except OSError:  # a file system without flock: cleaned up by age instead
+                pass
+
+    def open(self):
+        """The file for reading and writing (its own descriptor; closing it keeps the lock)."""
+        return os.fdopen(os.dup(self._fd), "w+b")
+
+    def close(self) -> None:
+        if self._fd >= 0:
+            os.close(self._fd)
+            self._fd = -1
+
+    def __enter__(self) -> TempFile:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+
+def _abandoned(path: str, now: float) -> bool:
+    """Whether the temporary file at ``path`` belongs to no running write: its lock can be taken (an
+    empty file younger than a few seconds may be one that was just made and not locked yet)."""
+    if fcntl is None:
+        try:
+            return now - os.stat(path).st_mtime > _STALE_SECONDS
+        except OSError:
+            return False
     try:
-        fd, name = tempfile.mkstemp(prefix=prefix, suffix=suffix, dir=workbook.parent)
-    except OSError as exc:
-        raise write_error(exc, workbook, doing="create a temporary file beside") from exc
-    return fd, Path(name)
+        fd = os.open(path, os.O_RDONLY | getattr(os, "O_NOFOLLOW", 0))
+    except OSError:
+        return False
+    try:
+        fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        st = os.fstat(fd)
+        return not (st.st_size == 0 and now - st.st_mtime < _FRESH_SECONDS)
+    except OSError:  # locked by a running write (or no flock here)
+        return False
+    finally:
+        os.close(fd)  # the lock, if taken, goes with it; the name is removed just after
+
+
+def remove_abandoned(workbook: Path) -> list[str]:
+    """Remove what killed or stopped writes of ``workbook`` left beside it: temporary files and in-place
+    copies no running write holds locked. Call it only when the workbook reads as a package (so an
+    in-place copy is no longer needed). Returns the names removed."""
+    now = time.time()
+    removed = []
+    try:
+        entries = list(os.scandir(workbook.parent))
+    except OSError:
+        return removed
+    for entry in entries:
+        if (is_temp_of(entry.name, workbook) or is_copy_of(entry.name, workbook)) and \
+                _abandoned(entry.path, now):
+            try:
+                os.unlink(entry.path)
+                removed.append(entry.name)
+            except OSError:
+                pass
+    return removed
 
 
 def remove_quietly(path: Path) -> None:
