@@ -234,3 +234,35 @@ def test_killed_writes_are_cleaned_up_and_running_ones_are_not(tmp_path):
         stopped.send_signal(signal.SIGCONT)
     assert stopped.wait(60) == 3  # it finds the workbook changed: nothing written, its temp removed
     assert _temps(tmp_path) == [] and Package.open(book).owned == ("Fc",)
+
+
+# -- a save between the last check of the bytes and the replace ------------------------------------------
+@pytest.mark.parametrize("how", ["rename-save, same bytes", "save in place"])
+@pytest.mark.parametrize("route", ["rename", "in place"])
+def test_a_save_after_the_last_byte_check_is_caught_by_the_final_look(tmp_path, monkeypatch, how, route):
+    book = tmp_path / "pump_station.xlsx"
+    shutil.copy(PUMP, book)
+    if route == "in place":
+        os.link(book, tmp_path / "link.xlsx")  # a hard link makes the writer write in place
+    real = pkg._still_same
+    saved = {}
+
+    def check_then_someone_saves(path, expect, label):
+        seen = real(path, expect, label)
+        data = book.read_bytes()
+        if how == "rename-save, same bytes":  # what spreadsheet programs do: new file, renamed over
+            other = tmp_path / "~saving.tmp"
+            other.write_bytes(data)
+            os.replace(other, book)
+        else:
+            with open(book, "r+b") as fh:
+                fh.seek(0, os.SEEK_END)
+                fh.write(b"\0" * 10)
+        saved["bytes"] = book.read_bytes()
+        return seen
+
+    monkeypatch.setattr(pkg, "_still_same", check_then_someone_saves)
+    with pytest.raises(pkg.ConcurrentEditError, match="was saved by someone else while tocsin wrote"):
+        write(book, [corpus.forecast_spec("Fc", n=20)[0]], state={}, expect=None)
+    assert book.read_bytes() == saved["bytes"]  # the colleague's save stands
+    assert _temps(tmp_path) == []

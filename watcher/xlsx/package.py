@@ -74,13 +74,16 @@ from watcher.xlsx.names import is_copy_of
 from watcher.xlsx.plan import check_request, make_plan
 from watcher.xlsx.plan import emit as _emit
 from watcher.xlsx.replace import (
+    Identity,
     TempFile,
     check_writable,
     copy_meta,
     fsync_dir,
+    identity,
     read_meta,
     remove_abandoned,
     remove_quietly,
+    rename_over,
     write_error,
     write_in_place,
 )
@@ -125,6 +128,11 @@ def fingerprint_of(data: bytes, st: os.stat_result) -> Fingerprint:
 
 
 def _read_file(path: Path) -> tuple[bytes, Fingerprint]:
+    data, fp, _ = _read_with_stat(path)
+    return data, fp
+
+
+def _read_with_stat(path: Path) -> tuple[bytes, Fingerprint, os.stat_result]:
     label = path.name
     try:
         with open(path, "rb") as fh:
@@ -146,7 +154,7 @@ def _read_file(path: Path) -> tuple[bytes, Fingerprint]:
     if moved or len(data) != after.st_size:
         raise ConcurrentEditError(f"workbook '{label}' changed while tocsin read it; try again when it is "
                                   "saved", workbook=label)
-    return data, fingerprint_of(data, after)
+    return data, fingerprint_of(data, after), after
 
 
 def _source(data: bytes, path: Path) -> Source:
@@ -210,15 +218,18 @@ def validate(path: str | os.PathLike) -> list[str]:
     return check_package(path)
 
 
-def _still_same(path: Path, expect: Fingerprint, label: str) -> None:
+def _still_same(path: Path, expect: Fingerprint, label: str) -> Identity:
+    """Check that the workbook still holds the bytes ``expect`` describes (size and SHA-256); return
+    the identity of the file so checked, for the last look just before the replace."""
     try:
-        data, now = _read_file(path)
+        data, now, st = _read_with_stat(path)
     except PackageError as exc:
         raise ConcurrentEditError(f"workbook '{label}' changed while tocsin computed ({exc}); nothing was "
                                   "written, try again later", workbook=label) from exc
     if not now.same_bytes(expect):
         raise ConcurrentEditError(f"workbook '{label}' was saved by someone else while tocsin computed; "
                                   "nothing was written, try again later", workbook=label)
+    return identity(st)
 
 
 def write(path: str | os.PathLike, sheets: Sequence[SheetSpec], *, state: dict,
@@ -295,19 +306,11 @@ def write(path: str | os.PathLike, sheets: Sequence[SheetSpec], *, state: dict,
             if missing:
                 raise PackageError(f"internal error: the new package of '{label}' lacks {missing}",
                                    workbook=label)
-            _still_same(path, expect, label)
             meta = read_meta(path)
             in_place = meta is None or meta.nlink > 1 or not copy_meta(meta, tmp)
-            if not in_place:
-                try:
-                    os.replace(tmp, path)
-                except PermissionError:  # e.g. a sticky folder: only the owner may rename over the workbook
-                    in_place = True
-                except OSError as exc:
-                    raise PackageError(f"cannot replace '{label}' (is it open in a spreadsheet program?): "
-                                       f"{exc.strerror or exc}", workbook=label) from exc
-            if in_place:
-                write_in_place(path, tmp, digest, size)
+            seen = _still_same(path, expect, label)  # the bytes (SHA-256); then only a stat before the rename
+            if in_place or not rename_over(tmp, path, seen):
+                write_in_place(path, tmp, digest, size, seen)
         except BaseException:
             remove_quietly(tmp)
             raise

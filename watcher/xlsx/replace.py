@@ -30,7 +30,7 @@ import time
 from dataclasses import dataclass
 from pathlib import Path
 
-from watcher.xlsx.errors import PackageError, ReadOnlyWorkbookError, WriteError
+from watcher.xlsx.errors import ConcurrentEditError, PackageError, ReadOnlyWorkbookError, WriteError
 from watcher.xlsx.names import copy_name, is_copy_of, is_temp_of, temp_affixes
 
 try:
@@ -38,8 +38,9 @@ try:
 except ImportError:  # pragma: no cover - Windows: abandoned temporary files are found by age
     fcntl = None
 
-__all__ = ["FileMeta", "TempFile", "check_writable", "copy_meta", "digest", "fsync_dir", "read_meta",
-           "remove_abandoned", "remove_quietly", "write_error", "write_in_place"]
+__all__ = ["FileMeta", "Identity", "TempFile", "check_writable", "copy_meta", "digest", "fsync_dir",
+           "identity", "read_meta", "remove_abandoned", "remove_quietly", "rename_over", "write_error",
+           "write_in_place"]
 
 _PIECE = 1 << 20
 _FRESH_SECONDS = 5.0      # an empty temporary file this young may not be locked yet
@@ -278,7 +279,37 @@ def fsync_dir(folder: Path) -> None:
         os.close(fd)
 
 
-def write_in_place(path: Path, tmp: Path, sha: str, size: int) -> None:
+Identity = tuple[int, int, int, int]
+"""(device, inode, size, mtime in ns): what must not change between the last check of the workbook's
+bytes and the replace."""
+
+
+def identity(st: os.stat_result) -> Identity:
+    return st.st_dev, st.st_ino, st.st_size, st.st_mtime_ns
+
+
+def _moved(label: str) -> ConcurrentEditError:
+    return ConcurrentEditError(f"workbook '{label}' was saved by someone else while tocsin wrote; nothing "
+                               "was written, try again later", workbook=label)
+
+
+def rename_over(tmp: Path, path: Path, seen: Identity) -> bool:
+    """Rename ``tmp`` over the workbook ``path`` if the workbook is still the file last checked
+    (``seen``): one ``stat`` and the rename, nothing in between. False when the folder does not let
+    this user rename over the workbook (a sticky folder); the caller then writes in place."""
+    if identity(os.stat(path)) != seen:
+        raise _moved(path.name)
+    try:
+        os.replace(tmp, path)
+    except PermissionError:
+        return False
+    except OSError as exc:
+        raise PackageError(f"cannot replace '{path.name}' (is it open in a spreadsheet program?): "
+                           f"{exc.strerror or exc}", workbook=path.name) from exc
+    return True
+
+
+def write_in_place(path: Path, tmp: Path, sha: str, size: int, seen: Identity) -> None:
     """Write the verified new package ``tmp`` (``size`` bytes, SHA-256 ``sha``) into the workbook file
     ``path`` itself, keeping its inode (owner, group, mode, ACLs, attributes, hard links).
 
@@ -290,18 +321,23 @@ def write_in_place(path: Path, tmp: Path, sha: str, size: int) -> None:
     label = path.name
     copy = copy_name(tmp, path)
     try:
-        os.replace(tmp, copy)
-    except OSError as exc:
-        raise write_error(exc, path) from exc
-    fsync_dir(path.parent)
-    try:
         fd = os.open(path, os.O_WRONLY)
     except OSError as exc:
-        remove_quietly(copy)
         raise write_error(exc, path, doing="write into") from exc
+    try:
+        os.replace(tmp, copy)
+    except OSError as exc:
+        os.close(fd)
+        raise write_error(exc, path) from exc
+    fsync_dir(path.parent)
     started = False
     try:
-        old_size = os.fstat(fd).st_size
+        st = os.fstat(fd)
+        if identity(st) != seen:  # the last look, just before the first byte is overwritten
+            os.close(fd)
+            remove_quietly(copy)
+            raise _moved(label)
+        old_size = st.st_size
         if size > old_size and hasattr(os, "posix_fallocate"):
             try:
                 os.posix_fallocate(fd, 0, size)
