@@ -4,8 +4,9 @@ the watcher ignores them and waits on owner files by these rules.
 
 * Workbooks: ``*.xlsx`` and ``*.xlsm`` (any case), except owner and temporary files.
 * Owner files (a spreadsheet program keeps one beside a workbook while it is open): ``~$name`` and
-  ``.~lock.name#`` (common practice of the two families of programs); for long names one family
-  replaces the first two characters of the name by ``~$`` instead (recalled from memory).
+  ``.~lock.name#`` (common practice of the two families of programs); for long names (a stem of 8 or
+  more characters) one family replaces the first two characters of the name by ``~$`` instead
+  (recalled from memory).
 * tocsin's temporary files: ``.tocsin-<stem>-<random>.tmp`` in the workbook's folder; while a workbook
   is rewritten in place, the complete new package waits beside it as ``.tocsin-<stem>-<random>.copy.xlsx``
   (``.xlsm`` for a macro workbook), so an interrupted write loses nothing.
@@ -15,6 +16,7 @@ from __future__ import annotations
 from pathlib import Path
 
 __all__ = [
+    "LONG_STEM",
     "TOCSIN_TEMP_PREFIX",
     "WORKBOOK_SUFFIXES",
     "copy_name",
@@ -35,6 +37,9 @@ _COPY_INFIX = ".copy"
 _EXCEL_OWNER_PREFIX = "~$"
 _LIBRE_LOCK_PREFIX = ".~lock."
 _LIBRE_LOCK_SUFFIX = "#"
+LONG_STEM = 8
+"""A workbook whose name without its extension has this many characters or more gets the owner file
+``~$`` + ``name[2:]`` from one family of spreadsheet programs (recalled from memory)."""
 
 
 def is_workbook_name(name: str) -> bool:
@@ -88,21 +93,35 @@ def is_copy_of(name: str, workbook: Path) -> bool:
 def owner_file_candidates(path: Path) -> tuple[Path, ...]:
     """The owner files that, when present, mean ``path`` is open in a spreadsheet program.
 
-    ``~$name`` and ``.~lock.name#`` (common practice of the two families of programs). For long names
-    one family replaces the first two characters of the name by ``~$`` instead of prefixing it
-    (recalled from memory), so ``~$`` + ``name[2:]`` is checked as well.
+    ``~$name`` and ``.~lock.name#`` (common practice of the two families of programs). For a long name,
+    one family replaces the first two characters of the name by ``~$`` instead of prefixing it (recalled
+    from memory: a stem of :data:`LONG_STEM` or more characters), so ``~$`` + ``name[2:]`` is a candidate
+    for such names only.
     """
     name = path.name
     candidates = [path.with_name(_EXCEL_OWNER_PREFIX + name)]
-    if len(name) > 2:
+    if _is_long(path):
         candidates.append(path.with_name(_EXCEL_OWNER_PREFIX + name[2:]))
     candidates.append(path.with_name(_LIBRE_LOCK_PREFIX + name + _LIBRE_LOCK_SUFFIX))
     return tuple(candidates)
 
 
+def _is_long(path: Path) -> bool:
+    return len(path.stem) >= LONG_STEM
+
+
 def owner_file(path: Path) -> Path | None:
-    """The owner file of ``path`` that exists now, or None when the workbook is not open anywhere."""
+    """The owner file of ``path`` that exists now, or None when the workbook is not open anywhere.
+
+    ``~$`` + ``name[2:]`` is also the plain owner file of the workbook ``name[2:]`` when that name is
+    short; if that workbook exists beside ``path``, the owner file is taken to be its own, so
+    ``~$report.xlsx`` (report.xlsx open) does not make ``xxreport.xlsx`` busy.
+    """
+    short_twin = path.with_name(path.name[2:])
     for candidate in owner_file_candidates(path):
+        if candidate.name == _EXCEL_OWNER_PREFIX + short_twin.name and not _is_long(short_twin) \
+                and short_twin.exists():
+            continue
         if candidate.exists():
             return candidate
     return None
