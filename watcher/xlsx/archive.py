@@ -47,6 +47,7 @@ _LIMIT32 = 0xFFFFFFFF
 _UTF8_FLAG = 0x800
 _DESCRIPTOR_FLAG = 0x8
 _VERSION = 20
+_PIECE = 1 << 20
 
 
 @dataclass(frozen=True)
@@ -135,7 +136,47 @@ class ZipSource:
         if len(out) > limit:
             raise PackageError(f"'{self.label}': part '{name}' is larger than the {limit:,} bytes tocsin "
                                "reads; refused", workbook=self.label, part=name, limit=limit)
+        if len(out) != member.file_size:
+            raise PackageError(f"'{self.label}': part '{name}' declares {member.file_size:,} bytes but holds "
+                               f"{len(out):,}; the file is damaged", workbook=self.label, part=name)
         return out
+
+    def check(self, name: str, *, keep: int = 65_536) -> tuple[str | None, bytes]:
+        """Inflate member ``name`` as a stream and compare it with what the central directory declares:
+        its size (reading at most one byte more than declared, so a lying small size cannot make it
+        inflate a bomb) and its CRC-32. Returns ``(problem, head)``: what is wrong (None when nothing)
+        and its first ``keep`` uncompressed bytes."""
+        m = self.members[name]
+        try:
+            raw = self.raw(name)
+        except PackageError as exc:
+            return str(exc), b""
+        where = f"'{self.label}': part '{name}'"
+        head = bytearray()
+        size = crc = 0
+        try:
+            if m.method == zipfile.ZIP_STORED:
+                pieces = (raw[i:i + _PIECE] for i in range(0, len(raw), _PIECE))
+            elif m.method == zipfile.ZIP_DEFLATED:
+                pieces = _inflate(raw, m.file_size + 1)
+            else:  # other methods (rare in workbooks): zipfile's reader, bounded the same way
+                pieces = _read_bounded(self._zf, name, m.file_size + 1)
+            for piece in pieces:
+                if len(head) < keep:
+                    head += piece[:keep - len(head)]
+                size += len(piece)
+                if size > m.file_size:
+                    return (f"{where} declares {m.file_size:,} bytes but holds more; the file is damaged",
+                            bytes(head))
+                crc = zlib.crc32(piece, crc)
+        except (zlib.error, zipfile.BadZipFile, EOFError, OSError, NotImplementedError) as exc:
+            return f"{where} cannot be read ({exc}); the file is damaged", bytes(head)
+        if size != m.file_size:
+            return (f"{where} declares {m.file_size:,} bytes but holds {size:,}; the file is damaged",
+                    bytes(head))
+        if crc != m.crc:
+            return f"{where} fails its CRC-32 check; the file is damaged", bytes(head)
+        return None, bytes(head)
 
     def raw(self, name: str) -> bytes:
         """The compressed bytes of a member, exactly as stored."""
@@ -155,6 +196,36 @@ class ZipSource:
             raise PackageError(f"'{self.label}': member '{name}' is cut short; the file is truncated",
                                workbook=self.label, part=name)
         return data
+
+
+def _inflate(raw: bytes, bound: int):
+    """The uncompressed pieces (at most 1 MiB each) of a raw deflate stream, stopping once ``bound``
+    bytes came out."""
+    d = zlib.decompressobj(-15)
+    out = pos = 0
+    pending = b""
+    while out < bound:
+        if not pending:
+            if pos >= len(raw):
+                break
+            pending, pos = raw[pos:pos + _PIECE], pos + _PIECE
+        piece = d.decompress(pending, min(_PIECE, bound - out))
+        pending = d.unconsumed_tail
+        if piece:
+            out += len(piece)
+            yield piece
+        if d.eof:
+            return
+    if out < bound and not d.eof:
+        raise zlib.error("the compressed data end early")
+
+
+def _read_bounded(zf: zipfile.ZipFile, name: str, bound: int):
+    with zf.open(name) as fh:
+        out = 0
+        while out < bound and (piece := fh.read(min(_PIECE, bound - out))):
+            out += len(piece)
+            yield piece
 
 
 class ZipWriter:

@@ -9,7 +9,11 @@ Public API
     Read a workbook safely (not a zip, truncated, DTD/entity bomb, over-size parts: a clear
     :class:`~watcher.xlsx.errors.PackageError` naming the file). Exposes ``sheet_names`` (in order),
     ``sheets`` (:class:`SheetInfo`), ``owned`` (names of tocsin's sheets), ``date1904``, ``state`` (the
-    small dict tocsin keeps in the package) and ``fingerprint`` (size, mtime_ns, sha256 of the bytes read).
+    small dict tocsin keeps in the package), ``fingerprint`` (size, mtime_ns, sha256 of the bytes read)
+    and ``problems`` / ``sheet_problems`` (damaged or hostile members, found by inflating every member
+    against its declared size and CRC-32 and looking for a document type declaration);
+    ``check_sheet(name)`` raises :class:`~watcher.xlsx.errors.PackageError` for a sheet with one, so a
+    refresh can fail the jobs that read that sheet and go on with the others.
 ``write(path, sheets, *, state, remove=(), expect)`` (also ``Package.write``)
     One atomic write of all of tocsin's sheets (:class:`~watcher.xlsx.spec.SheetSpec`): new sheets are
     appended after the user's, tocsin's sheets of the same name are replaced in place, tocsin's sheets
@@ -186,6 +190,7 @@ class Package:
     macro_enabled: bool
     state: dict = field(default_factory=dict)
     marker_problem: str | None = None
+    problems: dict = field(default_factory=dict)
 
     @classmethod
     def open(cls, path: str | os.PathLike) -> Package:
@@ -194,7 +199,23 @@ class Package:
         data, fp = _read_file(path)
         src = _source(data, path)
         return cls(path, fp, tuple(src.sheets), src.date1904, src.macro_enabled,
-                   json.loads(json.dumps(src.marker["state"])), src.marker_problem)
+                   json.loads(json.dumps(src.marker["state"])), src.marker_problem, src.part_problems())
+
+    @property
+    def sheet_problems(self) -> dict[str, str]:
+        """What is wrong with the part of each damaged or hostile sheet, by sheet name (see
+        :meth:`check_sheet`)."""
+        return {s.name: self.problems[s.part] for s in self.sheets if s.part in self.problems}
+
+    def check_sheet(self, name: str) -> None:
+        """Raise :class:`~watcher.xlsx.errors.PackageError` (its ``part`` named) when the part of sheet
+        ``name`` is damaged (its data do not match the declared size or CRC-32) or hostile (a document
+        type declaration), so a reader never parses it. Names match ignoring case; an unknown name is
+        not an error here."""
+        info = next((s for s in self.sheets if s.name.casefold() == name.casefold()), None)
+        if info is not None and info.part in self.problems:
+            raise PackageError(f"sheet '{info.name}' cannot be read: {self.problems[info.part]}",
+                               workbook=self.path.name, part=info.part)
 
     @property
     def sheet_names(self) -> tuple[str, ...]:

@@ -12,9 +12,19 @@ from lxml import etree
 
 from watcher.xlsx.archive import ZipSource
 from watcher.xlsx.errors import PackageError
-from watcher.xlsx.opc import CT, NS, REL, ContentTypes, Rels, local_name, parse_xml, rels_part_of
+from watcher.xlsx.opc import (
+    CT,
+    NS,
+    REL,
+    ContentTypes,
+    Rels,
+    local_name,
+    parse_xml,
+    prolog_problem,
+    rels_part_of,
+)
 
-__all__ = ["MARKER_FORMAT", "MARKER_PREFIX", "SHEET_MARK", "SheetInfo", "Source"]
+__all__ = ["MARKER_FORMAT", "MARKER_PREFIX", "SHEET_MARK", "SheetInfo", "Source", "member_problems"]
 
 MARKER_PREFIX = "tocsin."
 SHEET_MARK = "_tocsin_owned"
@@ -171,6 +181,10 @@ class Source:
                                  listed and len(out) in marks))
         return out
 
+    def part_problems(self) -> dict[str, str]:
+        """Damaged or hostile members as messages by member name (see :func:`member_problems`)."""
+        return member_problems(self.zip, self.ct)
+
     def graph(self) -> dict[str, list[str]]:
         """Internal relationships: part name ('' for the package) -> target part names that exist."""
         out: dict[str, list[str]] = {}
@@ -194,3 +208,25 @@ class Source:
                     targets.append(target)
             out[self.zip.find(source) or source] = targets
         return out
+
+
+def member_problems(zs: ZipSource, ct: ContentTypes) -> dict[str, str]:
+    """What is wrong with each damaged or hostile member of a package, as messages by member name: its
+    data do not inflate to its declared size and CRC-32 (checked as a stream, reading at most one byte
+    more than declared), or an XML part declares a document type. Members tocsin only copies are
+    checked too, so a bad data sheet is found and named before any reader meets it."""
+    out = {}
+    for name in zs.names:
+        if name.endswith("/"):
+            continue
+        problem, head = zs.check(name)
+        if problem is None and _is_xml(ct.of(name), name):
+            why = prolog_problem(head)
+            problem = f"'{zs.label}': part '{name}' {why}" if why else None
+        if problem:
+            out[name] = problem
+    return out
+
+
+def _is_xml(content_type: str | None, name: str) -> bool:
+    return (bool(content_type) and content_type.endswith("xml")) or name.lower().endswith((".xml", ".rels"))
