@@ -142,3 +142,14 @@ def test_a_small_declared_size_bounds_what_a_bomb_inflates(tmp_path):
     assert sum(len(p) for p in archive._inflate(bomb, 1_001)) == 1_001  # the bound: 1,001 bytes came out
     assert says in validate(path)
     assert Package.open(path).problems == {"xl/media/blob.bin": says}
+
+
+def test_checking_a_sheet_of_a_workbook_saved_since_is_a_conflict(tmp_path):
+    from watcher.xlsx.errors import ConcurrentEditError
+
+    path = tmp_path / "pump_station.xlsx"
+    shutil.copy(PUMP, path)
+    pkg = Package.open(path)
+    _zip(path, {**_members(), "docProps/extra.xml": b"<x/>"})  # someone saved meanwhile
+    with pytest.raises(ConcurrentEditError, match="saved by someone else since tocsin read it"):
+        pkg.check_sheet("Pump log")

@@ -10,8 +10,8 @@ Public API
     :class:`~watcher.xlsx.errors.PackageError` naming the file). Exposes ``sheet_names`` (in order),
     ``sheets`` (:class:`SheetInfo`), ``owned`` (names of tocsin's sheets), ``date1904``, ``state`` (the
     small dict tocsin keeps in the package), ``fingerprint`` (size, mtime_ns, sha256 of the bytes read)
-    and ``problems`` / ``sheet_problems`` (damaged or hostile members, found by inflating every member
-    against its declared size and CRC-32 and looking for a document type declaration);
+    and, checked when asked, ``problems`` / ``sheet_problems`` (damaged or hostile members, found by
+    inflating them against their declared size and CRC-32 and looking for a document type declaration);
     ``check_sheet(name)`` raises :class:`~watcher.xlsx.errors.PackageError` for a sheet with one, so a
     refresh can fail the jobs that read that sheet and go on with the others.
 ``write(path, sheets, *, state, remove=(), expect)`` (also ``Package.write``)
@@ -72,9 +72,10 @@ from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from watcher.xlsx.archive import MAX_TOTAL
+from watcher.xlsx.archive import MAX_TOTAL, ZipSource
 from watcher.xlsx.errors import ConcurrentEditError, PackageError, SpecError
 from watcher.xlsx.names import is_copy_of
+from watcher.xlsx.opc import ContentTypes, parse_xml
 from watcher.xlsx.plan import check_request, make_plan
 from watcher.xlsx.plan import emit as _emit
 from watcher.xlsx.replace import (
@@ -92,7 +93,7 @@ from watcher.xlsx.replace import (
     write_in_place,
 )
 from watcher.xlsx.replace import digest as file_digest
-from watcher.xlsx.source import MARKER_PREFIX, SHEET_MARK, SheetInfo, Source
+from watcher.xlsx.source import MARKER_PREFIX, SHEET_MARK, SheetInfo, Source, member_problems
 from watcher.xlsx.spec import SheetSpec
 
 __all__ = ["Fingerprint", "Package", "SheetInfo", "WriteResult", "MARKER_PREFIX", "SHEET_MARK",
@@ -190,7 +191,7 @@ class Package:
     macro_enabled: bool
     state: dict = field(default_factory=dict)
     marker_problem: str | None = None
-    problems: dict = field(default_factory=dict)
+    _checked: dict = field(default_factory=dict, repr=False, compare=False)  # part -> problem or None
 
     @classmethod
     def open(cls, path: str | os.PathLike) -> Package:
@@ -199,22 +200,51 @@ class Package:
         data, fp = _read_file(path)
         src = _source(data, path)
         return cls(path, fp, tuple(src.sheets), src.date1904, src.macro_enabled,
-                   json.loads(json.dumps(src.marker["state"])), src.marker_problem, src.part_problems())
+                   json.loads(json.dumps(src.marker["state"])), src.marker_problem)
+
+    def _problems_of(self, parts: Sequence[str] | None) -> dict[str, str]:
+        """Problems of ``parts`` (all members when None), checked once from the file's bytes, which must
+        still be those this object was read from."""
+        if parts is None or any(p not in self._checked for p in parts):
+            label = self.path.name
+            data, fp = _read_file(self.path)
+            if not fp.same_bytes(self.fingerprint):
+                raise ConcurrentEditError(f"workbook '{label}' was saved by someone else since tocsin read "
+                                          "it; try again when it is saved", workbook=label)
+            zs = ZipSource(data, label)
+            ct = ContentTypes(parse_xml(zs.read(zs.find("[Content_Types].xml")), "[Content_Types].xml",
+                                        label))
+            todo = zs.names if parts is None else [p for p in parts if p not in self._checked]
+            found = member_problems(zs, ct, [p for p in todo if p in zs.members])
+            self._checked.update({p: found.get(p) for p in todo})
+        return {p: m for p, m in self._checked.items() if m and (parts is None or p in parts)}
+
+    @property
+    def problems(self) -> dict[str, str]:
+        """What is wrong with each damaged or hostile member, by member name: its data do not inflate to
+        the declared size and CRC-32, or an XML part declares a document type (inflates every member
+        once; see :func:`~watcher.xlsx.source.member_problems`)."""
+        return self._problems_of(None)
 
     @property
     def sheet_problems(self) -> dict[str, str]:
-        """What is wrong with the part of each damaged or hostile sheet, by sheet name (see
-        :meth:`check_sheet`)."""
-        return {s.name: self.problems[s.part] for s in self.sheets if s.part in self.problems}
+        """The problems of the sheets' own parts, by sheet name (see :meth:`check_sheet`)."""
+        parts = [s.part for s in self.sheets if s.part]
+        found = self._problems_of(parts)
+        return {s.name: found[s.part] for s in self.sheets if s.part in found}
 
     def check_sheet(self, name: str) -> None:
         """Raise :class:`~watcher.xlsx.errors.PackageError` (its ``part`` named) when the part of sheet
         ``name`` is damaged (its data do not match the declared size or CRC-32) or hostile (a document
-        type declaration), so a reader never parses it. Names match ignoring case; an unknown name is
-        not an error here."""
+        type declaration), so a reader never parses it; only that part is inflated. Names match ignoring
+        case; an unknown name is not an error here. Raises ConcurrentEditError when the file changed
+        since it was opened."""
         info = next((s for s in self.sheets if s.name.casefold() == name.casefold()), None)
-        if info is not None and info.part in self.problems:
-            raise PackageError(f"sheet '{info.name}' cannot be read: {self.problems[info.part]}",
+        if info is None or not info.part:
+            return
+        found = self._problems_of([info.part])
+        if info.part in found:
+            raise PackageError(f"sheet '{info.name}' cannot be read: {found[info.part]}",
                                workbook=self.path.name, part=info.part)
 
     @property

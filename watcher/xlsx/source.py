@@ -181,10 +181,6 @@ class Source:
                                  listed and len(out) in marks))
         return out
 
-    def part_problems(self) -> dict[str, str]:
-        """Damaged or hostile members as messages by member name (see :func:`member_problems`)."""
-        return member_problems(self.zip, self.ct)
-
     def graph(self) -> dict[str, list[str]]:
         """Internal relationships: part name ('' for the package) -> target part names that exist."""
         out: dict[str, list[str]] = {}
@@ -210,13 +206,14 @@ class Source:
         return out
 
 
-def member_problems(zs: ZipSource, ct: ContentTypes) -> dict[str, str]:
+def member_problems(zs: ZipSource, ct: ContentTypes, names: list[str] | None = None) -> dict[str, str]:
     """What is wrong with each damaged or hostile member of a package, as messages by member name: its
     data do not inflate to its declared size and CRC-32 (checked as a stream, reading at most one byte
     more than declared), or an XML part declares a document type. Members tocsin only copies are
-    checked too, so a bad data sheet is found and named before any reader meets it."""
+    checked too, so a bad data sheet is found and named before any reader meets it. ``names``: only
+    these members (default all)."""
     out = {}
-    for name in zs.names:
+    for name in zs.names if names is None else names:
         if name.endswith("/"):
             continue
         problem, head = zs.check(name)
