@@ -95,6 +95,7 @@ from watcher.xlsx.replace import (
 from watcher.xlsx.replace import digest as file_digest
 from watcher.xlsx.source import MARKER_PREFIX, SHEET_MARK, SheetInfo, Source, member_problems
 from watcher.xlsx.spec import SheetSpec
+from watcher.xlsx.validate import check_package
 
 __all__ = ["Fingerprint", "Package", "SheetInfo", "WriteResult", "MARKER_PREFIX", "SHEET_MARK",
            "check_writable", "fingerprint_of", "validate", "write"]
@@ -264,8 +265,6 @@ class Package:
 
 def validate(path: str | os.PathLike) -> list[str]:
     """Structural problems of the package at ``path`` (empty when none); see :mod:`watcher.xlsx.validate`."""
-    from watcher.xlsx.validate import check_package
-
     return check_package(path)
 
 
