@@ -54,17 +54,5 @@ class PartitionError(InputError):
     1-based row of the first offending date where there is one."""
 
 
-class PackageError(TocsinError):
-    """A workbook package cannot be read or written safely (not a zip, truncated, unsafe XML, ...)."""
-
-
-class OwnershipError(PackageError):
-    """A sheet tocsin would write is not tocsin's (a user's sheet of the same name)."""
-
-
-class ConcurrentEditError(PackageError):
-    """The workbook changed on disk while tocsin computed; nothing was written."""
-
-
 class JobError(TocsinError):
     """A row of the job table is invalid; the message names the row, the setting and the value."""

@@ -146,7 +146,7 @@ def test_invalid_setting_beside_a_good_job(tmp_path, capsys, setting, value, say
     assert "  gdp fall: ok; " in out and "  bad job: FAILED: " in out
     value_text, fill = status_cell(path, "bad job forecast")
     assert value_text.startswith("failed: ") and says in value_text
-    assert fill == "FFF8D8D3"  # the warning fill of watcher/cellstyles.py (light red)
+    assert fill == "FFF8D8D3"  # the warning fill of watcher/xlsx/styles.py (light red)
     assert set(package.Package.open(path).owned) == {"gdp fall forecast", "gdp fall profile",
                                                      "bad job forecast"}
     check_book(path, all_valid=False)  # the good job, against the core
@@ -334,7 +334,8 @@ def test_init_errors(tmp_path, capsys, args, says):
 def test_debug_shows_the_traceback(tmp_path):
     from sheetfns.errors import TocsinError
     from watcher import cli
-    with pytest.raises(TocsinError):
+    from watcher.xlsx.errors import XlsxError
+    with pytest.raises((TocsinError, XlsxError)):
         cli.main(["--debug", "init", str(tmp_path / "no.xlsx"), "--sheet", "S", "--value", "V",
                   "--event", ">1"])
 

@@ -12,9 +12,12 @@ CORE = ["sheetfns", "sheetfns.errors", "sheetfns.checks", "sheetfns.events", "sh
 
 def test_errors_are_value_errors():
     from sheetfns import errors
-    for name in ("TocsinError", "InputError", "CriterionError", "PartitionError", "PackageError",
-                 "OwnershipError", "ConcurrentEditError", "JobError"):
+    from watcher.xlsx import errors as xlsx_errors
+    for name in ("TocsinError", "InputError", "CriterionError", "PartitionError", "JobError"):
         assert issubclass(getattr(errors, name), ValueError), name
+    for name in ("XlsxError", "SpecError", "SheetNameError", "PackageError", "OwnershipError",
+                 "ConcurrentEditError"):
+        assert issubclass(getattr(xlsx_errors, name), xlsx_errors.XlsxError), name
 
 
 def test_core_imports_neither_xlwings_nor_watchdog():

@@ -26,9 +26,9 @@ import pytest
 from lxml import etree
 from python_calamine import CalamineWorkbook
 
-from sheetfns.errors import ConcurrentEditError, InputError, OwnershipError, PackageError
-from watcher.xlsx import archive as zipio
+from watcher.xlsx import archive
 from watcher.xlsx import package as pkg
+from watcher.xlsx.errors import ConcurrentEditError, OwnershipError, PackageError, SheetNameError, SpecError
 from watcher.xlsx.package import MARKER_PREFIX, SHEET_MARK, Package, validate, write
 from watcher.xlsx.spec import Cells, Column, SheetSpec, Table, check_sheet_name
 from watcher.xlsx.worksheet import date_serials, escape_text
@@ -78,15 +78,20 @@ def _replace_member(path: Path, name: str, data: bytes | None, add: dict | None 
 
 
 # -- sheet names ---------------------------------------------------------------------------------
-@pytest.mark.parametrize("bad, why", [
-    ("", "empty"), ("   ", "empty"), ("a" * 32, "31 characters"), ("a/b", "[]:*?/\\"), ("x[1]", "[]:*?/\\"),
-    ("what?", "[]:*?/\\"), ("a:b", "[]:*?/\\"), ("s*", "[]:*?/\\"), ("back\\slash", "[]:*?/\\"),
-    ("'quoted", "apostrophe"), ("quoted'", "apostrophe"), ("History", "reserved"), ("tab\there", "control"),
+@pytest.mark.parametrize("bad, why, rule", [
+    ("", "empty", "empty"), ("   ", "empty", "empty"), ("a" * 32, "31 characters", "length"),
+    ("a/b", "[]:*?/\\", "characters"), ("x[1]", "[]:*?/\\", "characters"),
+    ("what?", "[]:*?/\\", "characters"), ("a:b", "[]:*?/\\", "characters"), ("s*", "[]:*?/\\", "characters"),
+    ("back\\slash", "[]:*?/\\", "characters"), ("'quoted", "apostrophe", "apostrophe"),
+    ("quoted'", "apostrophe", "apostrophe"), ("History", "reserved", "reserved"),
+    ("tab\there", "control", "control"), (7, "must be text", "type"),
 ])
-def test_sheet_name_rules(bad, why):
+def test_sheet_name_rules(bad, why, rule):
     # The format's sheet-name rules (common practice of spreadsheet programs; ECMA-376 leaves them open).
-    with pytest.raises(InputError, match=re.escape(why)):
+    with pytest.raises(SheetNameError, match=re.escape(why)) as err:
         check_sheet_name(bad)
+    assert err.value.rule == rule and err.value.name == bad
+    assert err.value.limit == (31 if rule == "length" else None)
 
 
 def test_sheet_name_good():
@@ -96,7 +101,7 @@ def test_sheet_name_good():
 
 def test_names_unique_ignoring_case(tmp_path, books):
     path = corpus.copy_book(books, "charts", tmp_path)
-    with pytest.raises(InputError, match="unique ignoring case"):
+    with pytest.raises(SpecError, match="unique ignoring case"):
         _write(path, [_simple("Out", [1.0]), _simple("OUT", [2.0])])
     res = _write(path, [_simple("Out", [1.0])])
     assert res.added == ("Out",)
@@ -140,22 +145,24 @@ def test_entity_bomb_refused(tmp_path, books):
     p = tmp_path / "bomb.xlsx"
     shutil.copy(books["charts"], p)
     _replace_member(p, "xl/workbook.xml", bomb)
-    with pytest.raises(PackageError, match="bomb.xlsx.*xl/workbook.xml.*document type"):
+    with pytest.raises(PackageError, match="bomb.xlsx.*xl/workbook.xml.*document type") as err:
         Package.open(p)
+    assert (err.value.workbook, err.value.part) == ("bomb.xlsx", "xl/workbook.xml")
     assert any("document type" in m for m in validate(p))
 
 
 def test_part_size_cap(tmp_path, books, monkeypatch):
     p = corpus.copy_book(books, "strings", tmp_path)
-    monkeypatch.setattr(zipio, "MAX_PART", 500)
-    monkeypatch.setattr(zipio.ZipSource.read, "__defaults__", (500,))
-    with pytest.raises(PackageError, match="more than the 500 tocsin reads"):
+    monkeypatch.setattr(archive, "MAX_PART", 500)
+    monkeypatch.setattr(archive.ZipSource.read, "__defaults__", (500,))
+    with pytest.raises(PackageError, match="more than the 500 tocsin reads") as err:
         Package.open(p)
+    assert err.value.limit == 500 and err.value.part
 
 
 def test_total_size_cap(tmp_path, books, monkeypatch):
     p = corpus.copy_book(books, "strings", tmp_path)
-    monkeypatch.setattr(zipio, "MAX_TOTAL", 10_000)
+    monkeypatch.setattr(archive, "MAX_TOTAL", 10_000)
     with pytest.raises(PackageError, match="uncompressed content; refused"):
         Package.open(p)
 
@@ -450,8 +457,9 @@ def test_user_sheet_is_never_overwritten(tmp_path, books):
         with pytest.raises(OwnershipError, match="sheet '(Data|Second|Lookup)' in 'xw_names.xlsx' is not "
                                                  "tocsin's"):
             _write(path, [_simple(name, [1.0])])
-    with pytest.raises(OwnershipError, match="'Second'"):
+    with pytest.raises(OwnershipError, match="'Second'") as err:
         _write(path, [], remove=["Second"])
+    assert (err.value.sheet, err.value.workbook, err.value.unmarked) == ("Second", "xw_names.xlsx", False)
     assert path.read_bytes() == before
 
 
@@ -480,8 +488,9 @@ def test_sheet_made_again_under_tocsins_name_is_the_users(tmp_path, books):
     wb = wb[:start] + wb[wb.index("</definedName>", start) + len("</definedName>"):]
     _replace_member(path, "xl/workbook.xml", wb.encode())
     assert Package.open(path).owned == ()
-    with pytest.raises(OwnershipError, match="not tocsin's mark"):
+    with pytest.raises(OwnershipError, match="not tocsin's mark") as err:
         _write(path, [_simple("Fc", [2.0])])
+    assert err.value.sheet == "Fc" and err.value.unmarked
 
 
 def test_unreadable_marker_protects_everything(tmp_path, books):
@@ -724,21 +733,30 @@ def test_failure_leaves_no_temporary(tmp_path, books, monkeypatch):
     def boom(*a, **k):
         raise RuntimeError("disk full (simulated)")
 
-    monkeypatch.setattr(zipio.ZipWriter, "close", boom)
+    monkeypatch.setattr(archive.ZipWriter, "close", boom)
     with pytest.raises(RuntimeError, match="simulated"):
         _write(path, [_simple("Fc", [1.0])])
     assert path.read_bytes() == before and not list(tmp_path.glob(".tocsin-*"))
 
 
-def test_stale_temporaries_cleaned(tmp_path, books):
+@pytest.mark.skipif(os.name != "posix", reason="flock")
+def test_abandoned_temporaries_cleaned(tmp_path, books):
+    import fcntl
+
     path = corpus.copy_book(books, "charts", tmp_path)
-    stale = tmp_path / f".tocsin-{path.stem}-dead.tmp"
-    fresh = tmp_path / f".tocsin-{path.stem}-busy.tmp"
-    stale.write_bytes(b"x")
-    fresh.write_bytes(b"x")
-    os.utime(stale, (1, 1))
-    _write(path, [_simple("Fc", [1.0])])
-    assert not stale.exists() and fresh.exists()
+    dead = tmp_path / f".tocsin-{path.stem}-dead.tmp"         # a killed write's: no lock
+    busy = tmp_path / f".tocsin-{path.stem}-busy.tmp"         # a running write's: locked
+    just_made = tmp_path / f".tocsin-{path.stem}-new.tmp"     # empty, seconds old: maybe not locked yet
+    copy = tmp_path / f".tocsin-{path.stem}-old.copy.xlsx"    # an interrupted in-place write's copy
+    other = tmp_path / ".tocsin-other-dead.tmp"               # another workbook's
+    for p in (dead, busy, copy, other):
+        p.write_bytes(b"x")
+    just_made.write_bytes(b"")
+    with open(busy, "rb") as holder:
+        fcntl.flock(holder, fcntl.LOCK_EX)
+        _write(path, [_simple("Fc", [1.0])])
+        assert busy.exists() and just_made.exists() and other.exists()
+        assert not dead.exists() and not copy.exists()
 
 
 @pytest.mark.skipif(os.name != "posix", reason="symbolic links and modes")
@@ -755,15 +773,15 @@ def test_symlink_and_mode(tmp_path, books):
 # -- spec checks and layout ----------------------------------------------------------------------
 def test_spec_errors():
     t = Table(0, 0, ("a",), (Column([1.0, 2.0]),))
-    with pytest.raises(InputError, match="overlap"):
+    with pytest.raises(SpecError, match="overlap"):
         SheetSpec("S", (t, Cells(1, 0, (((1, "general"),),))))
-    with pytest.raises(InputError, match="equal length"):
+    with pytest.raises(SpecError, match="equal length"):
         Table(0, 0, None, (Column([1.0]), Column([1.0, 2.0])))
-    with pytest.raises(InputError, match="cell format must be one of"):
+    with pytest.raises(SpecError, match="cell format must be one of"):
         Column([1.0], "fancy")
-    with pytest.raises(InputError, match="does not fit"):
+    with pytest.raises(SpecError, match="does not fit"):
         Table(1_048_575, 0, ("h",), (Column([1.0]),))
-    with pytest.raises(InputError, match="does not fit"):
+    with pytest.raises(SpecError, match="does not fit"):
         Table(0, 16_384 - 1, None, (Column([1.0]), Column([2.0])))
 
 

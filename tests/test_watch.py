@@ -23,9 +23,9 @@ from pathlib import Path
 
 import pytest
 
-from sheetfns.errors import PackageError
 from watcher.watch.log import WatchLog
 from watcher.watch.service import Watcher
+from watcher.xlsx.errors import PackageError
 
 QUIET = 0.4
 MARKER = "tocsin/refreshed.txt"
@@ -319,9 +319,9 @@ def test_single_workbook_path_watches_that_workbook_only(share):
 
 
 # -- hands off while open ------------------------------------------------------------------------------
-@pytest.mark.parametrize("owner_name", ["~$ferry.xlsx", ".~lock.ferry.xlsx#", "~$rry.xlsx"])
+@pytest.mark.parametrize("owner_name", ["~$ferry_log.xlsx", ".~lock.ferry_log.xlsx#", "~$rry_log.xlsx"])
 def test_open_workbook_waits_for_its_owner_file_then_one_refresh(share, owner_name):
-    book = share / "ferry.xlsx"
+    book = share / "ferry_log.xlsx"  # a long name (stem of 8 or more): the ~$ + name[2:] form counts too
     book.write_bytes(workbook_bytes("v0"))
     owner = share / owner_name
     with Rig(share, initial=False) as rig:

@@ -24,8 +24,9 @@ from watchdog.events import (
     FileOpenedEvent,
 )
 
-from watcher.watch.debounce import Debouncer, is_workbook_name, owner_file_candidates, workbook_of_owner_file
+from watcher.watch.debounce import Debouncer
 from watcher.watch.service import _Forwarder
+from watcher.xlsx.names import is_workbook_name, owner_file_candidates, workbook_of_owner_file
 
 QUIET = 0.1
 BOOK = Path("/share/ferry.xlsx")

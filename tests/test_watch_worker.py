@@ -10,9 +10,9 @@ from pathlib import Path
 
 import pytest
 
-from sheetfns.errors import PackageError
 from watcher.watch.log import WatchLog
 from watcher.watch.worker import Outcome, RefreshWorker
+from watcher.xlsx.errors import PackageError
 
 A = Path("/share/ferry.xlsx")
 B = Path("/share/bakery.xlsx")

@@ -137,6 +137,7 @@ class Dispatcher:
         head = f"alert command {name!r} ({alert.state} {_quote(alert.job)})"
         env = {k: v for k, v in os.environ.items() if k not in SECRET_VARIABLES}
         posix = os.name == "posix"
+        payload = (alert.to_json() + "\n").encode("utf-8")  # before the start: a bad alert starts nothing
         try:
             proc = subprocess.Popen(  # noqa: S603  (the operator's own argument list; no shell)
                 self.command, stdin=subprocess.PIPE, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE,
@@ -144,7 +145,6 @@ class Dispatcher:
                 creationflags=0 if posix else subprocess.CREATE_NEW_PROCESS_GROUP)
         except OSError as exc:
             return False, f"{head} could not be started: {exc.strerror or exc}"
-        payload = (alert.to_json() + "\n").encode("utf-8")
         try:
             _, err = proc.communicate(payload, timeout=self.timeout)
         except subprocess.TimeoutExpired:
@@ -153,6 +153,8 @@ class Dispatcher:
                 _, err = proc.communicate(timeout=5)
             except subprocess.TimeoutExpired:  # a grandchild escaped the group and holds stderr open
                 err = b""
+            finally:
+                _reap(proc)
             return False, f"{head} timed out after {self.timeout:g} s and was stopped{_last_line(err)}"
         if proc.returncode != 0:
             code = proc.returncode
@@ -226,6 +228,20 @@ def _login(smtp: smtplib.SMTP, user: str, password: str) -> None:
     code, answer = smtp.docmd("AUTH", f"PLAIN {token}")
     if code not in (235, 503):  # 503: already authenticated
         raise smtplib.SMTPAuthenticationError(code, answer)
+
+
+def _reap(proc: subprocess.Popen) -> None:
+    """Close our ends of the pipes and collect the killed child, so nothing is left open."""
+    for pipe in (proc.stdin, proc.stdout, proc.stderr):
+        if pipe is not None:
+            try:
+                pipe.close()
+            except OSError:
+                pass
+    try:
+        proc.wait(timeout=5)
+    except subprocess.TimeoutExpired:
+        pass
 
 
 def _kill_group(proc: subprocess.Popen) -> None:

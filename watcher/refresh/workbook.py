@@ -25,7 +25,6 @@ from collections.abc import Callable, Collection
 from pathlib import Path
 from typing import Any
 
-from sheetfns.errors import ConcurrentEditError  # the writer's; watcher.xlsx.errors once it has its own
 from watcher.refresh import layout
 from watcher.refresh.compute import JobOutcome, compute_job, digest, event_text, summary
 from watcher.refresh.jobs import TABLE_SHEET, JobTable, read_job_table
@@ -34,8 +33,9 @@ from watcher.refresh.report import JobReport, RefreshReport, job_report
 from watcher.refresh.settings import Row
 from watcher.refresh.sheetnames import output_names
 from watcher.refresh.texts import VERSION, describe
-from watcher.watch.debounce import owner_file  # the owner-file rule; watcher.xlsx.names once it is there
 from watcher.xlsx import package
+from watcher.xlsx.errors import ConcurrentEditError
+from watcher.xlsx.names import owner_file
 
 __all__ = ["Progress", "evaluate_book", "lay_out", "refresh_workbook"]
 

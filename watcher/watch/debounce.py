@@ -2,10 +2,8 @@
 
 Two parts, both free of threads' knowledge of file-system events:
 
-* **Name rules** (``is_workbook_name``, ``owner_file``, ``workbook_of_owner_file``): only ``*.xlsx`` and
-  ``*.xlsm`` are workbooks; temporary and owner files are not: ``~$*`` (the owner file one family of
-  spreadsheet programs keeps beside an open workbook), ``.~lock.*#`` (LibreOffice's), ``*.tmp`` and
-  tocsin's own temporaries (``.tocsin-*.tmp``, written by the package writer in the workbook's folder).
+* **Name rules** (which files are workbooks, owner files, tocsin's temporaries) live in
+  :mod:`watcher.xlsx.names`.
 * **The debouncer** (``Debouncer``): one thread and one ``Condition`` for all paths, with a deadline per
   path. Every new event for a path restarts that path's wait. When a path has been quiet for ``quiet``
   seconds, the debouncer checks it through a ``FileProbe``: the file exists (else the path is dropped),
@@ -27,88 +25,9 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Protocol
 
-__all__ = [
-    "TOCSIN_TEMP_PREFIX",
-    "TOCSIN_TEMP_SUFFIX",
-    "WORKBOOK_SUFFIXES",
-    "Debouncer",
-    "Probe",
-    "is_workbook_name",
-    "owner_file",
-    "workbook_of_owner_file",
-]
+__all__ = ["Debouncer", "Probe"]
 
 _logger = logging.getLogger(__name__)
-
-WORKBOOK_SUFFIXES = (".xlsx", ".xlsm")
-TOCSIN_TEMP_PREFIX = ".tocsin-"
-TOCSIN_TEMP_SUFFIX = ".tmp"
-_EXCEL_OWNER_PREFIX = "~$"
-_LIBRE_LOCK_PREFIX = ".~lock."
-_LIBRE_LOCK_SUFFIX = "#"
-
-
-def is_workbook_name(name: str) -> bool:
-    """True when a file name is a workbook tocsin may refresh (not a temporary or owner file).
-
-    Parameters
-    ----------
-    name : str
-        The file name (the last path component).
-
-    Examples
-    --------
-    >>> [is_workbook_name(n) for n in ("ferry.xlsx", "Pumps.XLSM", "~$ferry.xlsx", ".tocsin-ab12.tmp")]
-    [True, True, False, False]
-    """
-    lower = name.lower()
-    if not lower.endswith(WORKBOOK_SUFFIXES):
-        return False
-    return not (
-        name.startswith(_EXCEL_OWNER_PREFIX)
-        or name.startswith(_LIBRE_LOCK_PREFIX)
-        or name.startswith(TOCSIN_TEMP_PREFIX)
-    )
-
-
-def owner_file_candidates(path: Path) -> tuple[Path, ...]:
-    """The owner files that, when present, mean ``path`` is open in a spreadsheet program.
-
-    ``~$name`` and ``.~lock.name#`` (common practice of the two families of programs). For long names
-    one family replaces the first two characters of the name by ``~$`` instead of prefixing it
-    (recalled from memory), so ``~$`` + ``name[2:]`` is checked as well.
-    """
-    name = path.name
-    candidates = [path.with_name(_EXCEL_OWNER_PREFIX + name)]
-    if len(name) > 2:
-        candidates.append(path.with_name(_EXCEL_OWNER_PREFIX + name[2:]))
-    candidates.append(path.with_name(_LIBRE_LOCK_PREFIX + name + _LIBRE_LOCK_SUFFIX))
-    return tuple(candidates)
-
-
-def owner_file(path: Path) -> Path | None:
-    """The owner file of ``path`` that exists now, or None when the workbook is not open anywhere."""
-    for candidate in owner_file_candidates(path):
-        if candidate.exists():
-            return candidate
-    return None
-
-
-def workbook_of_owner_file(path: Path) -> Path | None:
-    """The workbook an owner file belongs to (``~$ferry.xlsx`` -> ``ferry.xlsx``), or None.
-
-    Only the untruncated forms map back; a waiting workbook notices a truncated owner file's removal by
-    polling (see ``Debouncer``).
-    """
-    name = path.name
-    if name.startswith(_LIBRE_LOCK_PREFIX) and name.endswith(_LIBRE_LOCK_SUFFIX):
-        inner = name[len(_LIBRE_LOCK_PREFIX):-len(_LIBRE_LOCK_SUFFIX)]
-    elif name.startswith(_EXCEL_OWNER_PREFIX):
-        inner = name[len(_EXCEL_OWNER_PREFIX):]
-    else:
-        return None
-    return path.with_name(inner) if is_workbook_name(inner) else None
-
 
 Stat = tuple[int, int, int]
 """(size, mtime in ns, inode): what must stay the same for a file to count as settled."""

@@ -11,7 +11,8 @@ import os
 import zipfile
 from pathlib import Path
 
-from watcher.watch.debounce import Stat, owner_file  # the owner-file rule; watcher.xlsx.names once there
+from watcher.watch.debounce import Stat
+from watcher.xlsx.names import owner_file
 
 __all__ = ["FileProbe"]
 

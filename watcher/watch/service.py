@@ -29,10 +29,11 @@ from pathlib import Path
 from typing import Any
 
 from sheetfns.errors import InputError
-from watcher.watch.debounce import Debouncer, is_workbook_name, workbook_of_owner_file
+from watcher.watch.debounce import Debouncer
 from watcher.watch.log import WatchLog
 from watcher.watch.probe import FileProbe
 from watcher.watch.worker import Outcome, RefreshWorker
+from watcher.xlsx.names import is_workbook_name, workbook_of_owner_file
 
 __all__ = ["FALLBACK_POLL", "Watcher"]
 

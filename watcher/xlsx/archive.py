@@ -30,7 +30,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import BinaryIO
 
-from sheetfns.errors import PackageError
+from watcher.xlsx.errors import PackageError
 
 __all__ = ["MAX_PART", "MAX_TOTAL", "Member", "ZipSource", "ZipWriter"]
 
@@ -47,6 +47,7 @@ _LIMIT32 = 0xFFFFFFFF
 _UTF8_FLAG = 0x800
 _DESCRIPTOR_FLAG = 0x8
 _VERSION = 20
+_PIECE = 1 << 20
 
 
 @dataclass(frozen=True)
@@ -83,9 +84,10 @@ class ZipSource:
             elif data[:2] == b"PK":
                 hint = " (it looks truncated or damaged)"
             raise PackageError(f"'{label}' is not a readable workbook package: not a complete zip file"
-                               f"{hint}") from exc
+                               f"{hint}", workbook=label) from exc
         except (OSError, ValueError, EOFError, struct.error) as exc:
-            raise PackageError(f"'{label}' is not a readable workbook package: {exc}") from exc
+            raise PackageError(f"'{label}' is not a readable workbook package: {exc}",
+                               workbook=label) from exc
         self._zf = zf
         self.members: dict[str, Member] = {}
         self.names: list[str] = []
@@ -95,14 +97,14 @@ class ZipSource:
             name = info.filename
             if name in self.members or name.casefold() in self._folded:
                 raise PackageError(f"'{label}' has two members named '{name}'; refusing to guess which "
-                                   "counts")
+                                   "counts", workbook=label, part=name)
             if info.flag_bits & 0x1:
                 raise PackageError(f"'{label}': member '{name}' is encrypted; password-protected packages "
-                                   "are not supported")
+                                   "are not supported", workbook=label, part=name)
             total += info.file_size
             if total > MAX_TOTAL:
                 raise PackageError(f"'{label}' declares more than {MAX_TOTAL // 1024**3} GiB of uncompressed "
-                                   "content; refused")
+                                   "content; refused", workbook=label, limit=MAX_TOTAL)
             dt = info.date_time
             dos_date = ((dt[0] - 1980) << 9) | (dt[1] << 5) | dt[2]
             dos_time = (dt[3] << 11) | (dt[4] << 5) | (dt[5] // 2)
@@ -122,17 +124,59 @@ class ZipSource:
         member = self.members[name]
         if member.file_size > limit:
             raise PackageError(f"'{self.label}': part '{name}' is {member.file_size:,} bytes uncompressed, "
-                               f"more than the {limit:,} tocsin reads; refused")
+                               f"more than the {limit:,} tocsin reads; refused",
+                               workbook=self.label, part=name,
+                               limit=limit)
         try:
             with self._zf.open(name) as fh:
                 out = fh.read(limit + 1)
         except (zipfile.BadZipFile, zlib.error, OSError, EOFError, NotImplementedError) as exc:
             raise PackageError(f"'{self.label}': part '{name}' cannot be read ({exc}); the file is "
-                               "damaged") from exc
+                               "damaged", workbook=self.label, part=name) from exc
         if len(out) > limit:
             raise PackageError(f"'{self.label}': part '{name}' is larger than the {limit:,} bytes tocsin "
-                               "reads; refused")
+                               "reads; refused", workbook=self.label, part=name, limit=limit)
+        if len(out) != member.file_size:
+            raise PackageError(f"'{self.label}': part '{name}' declares {member.file_size:,} bytes but holds "
+                               f"{len(out):,}; the file is damaged", workbook=self.label, part=name)
         return out
+
+    def check(self, name: str, *, keep: int = 65_536) -> tuple[str | None, bytes]:
+        """Inflate member ``name`` as a stream and compare it with what the central directory declares:
+        its size (reading at most one byte more than declared, so a lying small size cannot make it
+        inflate a bomb) and its CRC-32. Returns ``(problem, head)``: what is wrong (None when nothing)
+        and its first ``keep`` uncompressed bytes."""
+        m = self.members[name]
+        try:
+            raw = self.raw(name)
+        except PackageError as exc:
+            return str(exc), b""
+        where = f"'{self.label}': part '{name}'"
+        head = bytearray()
+        size = crc = 0
+        try:
+            if m.method == zipfile.ZIP_STORED:
+                pieces = (raw[i:i + _PIECE] for i in range(0, len(raw), _PIECE))
+            elif m.method == zipfile.ZIP_DEFLATED:
+                pieces = _inflate(raw, m.file_size + 1)
+            else:  # other methods (rare in workbooks): zipfile's reader, bounded the same way
+                pieces = _read_bounded(self._zf, name, m.file_size + 1)
+            for piece in pieces:
+                if len(head) < keep:
+                    head += piece[:keep - len(head)]
+                size += len(piece)
+                if size > m.file_size:
+                    return (f"{where} declares {m.file_size:,} bytes but holds more; the file is damaged",
+                            bytes(head))
+                crc = zlib.crc32(piece, crc)
+        except (zlib.error, zipfile.BadZipFile, EOFError, OSError, NotImplementedError) as exc:
+            return f"{where} cannot be read ({exc}); the file is damaged", bytes(head)
+        if size != m.file_size:
+            return (f"{where} declares {m.file_size:,} bytes but holds {size:,}; the file is damaged",
+                    bytes(head))
+        if crc != m.crc:
+            return f"{where} fails its CRC-32 check; the file is damaged", bytes(head)
+        return None, bytes(head)
 
     def raw(self, name: str) -> bytes:
         """The compressed bytes of a member, exactly as stored."""
@@ -140,15 +184,48 @@ class ZipSource:
         off = m.header_offset
         head = self.data[off:off + _LOCAL.size]
         if len(head) < _LOCAL.size:
-            raise PackageError(f"'{self.label}': member '{name}' lies past the end of the file (truncated)")
+            raise PackageError(f"'{self.label}': member '{name}' lies past the end of the file (truncated)",
+                               workbook=self.label, part=name)
         sig, *_rest, n_name, n_extra = _LOCAL.unpack(head)
         if sig != b"PK\x03\x04":
-            raise PackageError(f"'{self.label}': member '{name}' has no local header; the file is damaged")
+            raise PackageError(f"'{self.label}': member '{name}' has no local header; the file is damaged",
+                               workbook=self.label, part=name)
         start = off + _LOCAL.size + n_name + n_extra
         data = self.data[start:start + m.compress_size]
         if len(data) != m.compress_size:
-            raise PackageError(f"'{self.label}': member '{name}' is cut short; the file is truncated")
+            raise PackageError(f"'{self.label}': member '{name}' is cut short; the file is truncated",
+                               workbook=self.label, part=name)
         return data
+
+
+def _inflate(raw: bytes, bound: int):
+    """The uncompressed pieces (at most 1 MiB each) of a raw deflate stream, stopping once ``bound``
+    bytes came out."""
+    d = zlib.decompressobj(-15)
+    out = pos = 0
+    pending = b""
+    while out < bound:
+        if not pending:
+            if pos >= len(raw):
+                break
+            pending, pos = raw[pos:pos + _PIECE], pos + _PIECE
+        piece = d.decompress(pending, min(_PIECE, bound - out))
+        pending = d.unconsumed_tail
+        if piece:
+            out += len(piece)
+            yield piece
+        if d.eof:
+            return
+    if out < bound and not d.eof:
+        raise zlib.error("the compressed data end early")
+
+
+def _read_bounded(zf: zipfile.ZipFile, name: str, bound: int):
+    with zf.open(name) as fh:
+        out = 0
+        while out < bound and (piece := fh.read(min(_PIECE, bound - out))):
+            out += len(piece)
+            yield piece
 
 
 class ZipWriter:
@@ -192,10 +269,12 @@ class ZipWriter:
         comp = zlib.compressobj(level, zlib.DEFLATED, -15)
 
         def worker() -> None:
+            ended = False
             try:
                 while True:
                     chunk = work.get()
                     if chunk is None:
+                        ended = True
                         tail = comp.flush()
                         fh.write(tail)
                         state["csize"] += len(tail)
@@ -208,7 +287,9 @@ class ZipWriter:
                         state["csize"] += len(out)
             except BaseException as exc:  # noqa: BLE001 - handed to the producer below
                 state["error"] = exc
-                while work.get() is not None:
+                # let a producer blocked on the full queue go on, up to its end marker; never wait for
+                # one when the failing write was the last (the end marker is already taken)
+                while not ended and work.get() is not None:
                     pass
 
         thread = threading.Thread(target=worker, name="tocsin-zip-deflate", daemon=True)
@@ -222,11 +303,16 @@ class ZipWriter:
         finally:
             work.put(None)
             thread.join()
-        if state["error"] is not None:
-            raise state["error"]
+        error = state["error"]
+        if isinstance(error, Exception) and not isinstance(error, (OSError, PackageError)):
+            raise PackageError(f"internal error: compressing part '{name}' failed ({type(error).__name__}: "
+                               f"{error})", part=name) from error
+        if error is not None:
+            raise error  # an OSError (no space, ...) for the caller to name, or KeyboardInterrupt & co
         size, csize, crc = state["size"], state["csize"], state["crc"]
         if size >= _LIMIT32 or csize >= _LIMIT32 or offset >= _LIMIT32:
-            raise PackageError(f"part '{name}' would be 4 GiB or more; packages that large are not written")
+            raise PackageError(f"part '{name}' would be 4 GiB or more; packages that large are not written",
+                               part=name, limit=_LIMIT32)
         end = fh.tell()
         fh.seek(offset)
         fh.write(_LOCAL.pack(b"PK\x03\x04", _VERSION, flags, zipfile.ZIP_DEFLATED, *_FIXED_DOS_TIME,
@@ -246,14 +332,15 @@ class ZipWriter:
                                    m.internal_attr, m.external_attr, m.header_offset) + encoded)
         end = fh.tell()
         if len(self._entries) > 0xFFFF or end >= _LIMIT32:
-            raise PackageError("the package would need ZIP64 (4 GiB or 65,535 members); not written")
+            raise PackageError("the package would need ZIP64 (4 GiB or 65,535 members); not written",
+                               limit=_LIMIT32)
         fh.write(_END.pack(b"PK\x05\x06", 0, 0, len(self._entries), len(self._entries), end - start,
                            start, 0))
 
     # -- internals -------------------------------------------------------------------------------
     def _encode_name(self, name: str) -> bytes:
         if name.casefold() in self._names:
-            raise PackageError(f"internal error: member '{name}' written twice")
+            raise PackageError(f"internal error: member '{name}' written twice", part=name)
         self._names.add(name.casefold())
         return name.encode("utf-8")
 
@@ -267,7 +354,8 @@ class ZipWriter:
             flags |= _UTF8_FLAG
         offset = self._fh.tell()
         if size >= _LIMIT32 or csize >= _LIMIT32 or offset >= _LIMIT32:
-            raise PackageError(f"part '{name}' or the package would be 4 GiB or more; not written")
+            raise PackageError(f"part '{name}' or the package would be 4 GiB or more; not written", part=name,
+                               limit=_LIMIT32)
         self._fh.write(_LOCAL.pack(b"PK\x03\x04", _VERSION, flags, method, dos_time, dos_date, crc, csize,
                                    size, len(encoded), 0) + encoded)
         self._fh.write(payload)

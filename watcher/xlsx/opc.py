@@ -3,7 +3,8 @@ content types and part names.
 
 * :func:`parse_xml` parses a part with lxml with entity expansion, DTD loading and network access off
   and ``huge_tree`` off; a part with a document type declaration is refused outright (no Office Open XML
-  part has one, and that is where entity bombs live).
+  part has one, and that is where entity bombs live). :func:`prolog_problem` finds one in the first
+  bytes of a part that is not parsed (a data sheet), so it is found before any reader meets it.
 * :func:`serialize` writes a parsed part back with its own XML declaration (``standalone`` kept); lxml
   keeps namespace prefixes and ``mc:Ignorable`` as they are (ElementTree would rename prefixes).
 * :class:`Rels` is one relationships part; :func:`resolve` turns a relationship target into a part name.
@@ -13,16 +14,17 @@ content types and part names.
 from __future__ import annotations
 
 import posixpath
+import re
 from dataclasses import dataclass
 from urllib.parse import quote, unquote
 
 from lxml import etree
 
-from sheetfns.errors import PackageError
+from watcher.xlsx.errors import PackageError
 
 __all__ = [
-    "CT", "NS", "REL", "ContentTypes", "Rel", "Rels", "parse_xml", "rels_part_of", "resolve",
-    "relative_target", "serialize",
+    "CT", "NS", "REL", "ContentTypes", "Rel", "Rels", "parse_xml", "prolog_problem", "rels_part_of",
+    "resolve", "relative_target", "serialize",
 ]
 
 
@@ -35,11 +37,9 @@ class NS:
     ct = "http://schemas.openxmlformats.org/package/2006/content-types"
     custom = "http://schemas.openxmlformats.org/officeDocument/2006/custom-properties"
     vt = "http://schemas.openxmlformats.org/officeDocument/2006/docPropsVTypes"
-    mc = "http://schemas.openxmlformats.org/markup-compatibility/2006"
     c = "http://schemas.openxmlformats.org/drawingml/2006/chart"
     a = "http://schemas.openxmlformats.org/drawingml/2006/main"
     xdr = "http://schemas.openxmlformats.org/drawingml/2006/spreadsheetDrawing"
-    strict_main = "http://purl.oclc.org/ooxml/spreadsheetml/main"
 
 
 class REL:
@@ -100,19 +100,45 @@ def insert_in_order(parent: etree._Element, el: etree._Element, order: tuple[str
     parent.append(el)
 
 
+_PROLOG_DOCTYPE = re.compile(r"\ufeff?\s*(?:<\?.*?\?>\s*|<!--.*?-->\s*)*<!DOCTYPE", re.S)
+_PROLOG_END = re.compile(r"\ufeff?\s*(?:<\?.*?\?>\s*|<!--.*?-->\s*)*<[^?!]", re.S)
+
+
+def prolog_problem(head: bytes) -> str | None:
+    """What is wrong with the start of an XML part (``head``: its first bytes, 64 KB are plenty): a
+    document type declaration (where entity bombs live; no Office Open XML part has one), or a prolog
+    that does not end within ``head``. None when the root element starts cleanly."""
+    if head[:2] in (b"\xff\xfe", b"\xfe\xff"):
+        text = head.decode("utf-16", "ignore")
+    else:
+        text = head.decode("utf-8", "ignore")
+    if not text.strip():
+        return None
+    if _PROLOG_DOCTYPE.match(text):
+        return "declares a document type, which Office Open XML parts never do; refused"
+    if not _PROLOG_END.match(text):
+        return f"does not start its root element within its first {len(head):,} bytes; refused"
+    return None
+
+
 def parse_xml(data: bytes, part: str, label: str) -> etree._Element:
     """Parse one XML part safely; raise PackageError naming the file and part on any problem."""
     if b"<!DOCTYPE" in data[:4096] or b"<!ENTITY" in data[:4096]:
         raise PackageError(f"'{label}': part '{part}' declares a document type or entities, which Office "
-                           "Open XML parts never do; refused (possible entity-expansion attack)")
+                           "Open XML parts never do; refused (possible entity-expansion attack)",
+                           workbook=label, part=part)
+    problem = prolog_problem(data[:65_536])
+    if problem:
+        raise PackageError(f"'{label}': part '{part}' {problem}", workbook=label, part=part)
     try:
         root = etree.fromstring(data, _PARSER)
     except etree.XMLSyntaxError as exc:
-        raise PackageError(f"'{label}': part '{part}' is not well-formed XML ({exc})") from exc
+        raise PackageError(f"'{label}': part '{part}' is not well-formed XML ({exc})",
+                           workbook=label, part=part) from exc
     tree = root.getroottree()
     if tree.docinfo.doctype or tree.docinfo.internalDTD is not None:
         raise PackageError(f"'{label}': part '{part}' declares a document type, which Office Open XML "
-                           "parts never do; refused")
+                           "parts never do; refused", workbook=label, part=part)
     return root
 
 

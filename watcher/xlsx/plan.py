@@ -11,10 +11,10 @@ from typing import Any
 
 from lxml import etree
 
-from sheetfns.errors import InputError, OwnershipError, PackageError
-from watcher.xlsx import chart as _charts
-from watcher.xlsx import worksheet as _sheetxml
+from watcher.xlsx import chart as _chart
+from watcher.xlsx import worksheet as _worksheet
 from watcher.xlsx.archive import ZipWriter
+from watcher.xlsx.errors import OwnershipError, PackageError, SpecError
 from watcher.xlsx.opc import (
     CT,
     NS,
@@ -44,7 +44,8 @@ def _state_json(record: dict) -> str:
     try:
         return json.dumps(record, sort_keys=True, ensure_ascii=True, separators=(",", ":"), allow_nan=False)
     except (TypeError, ValueError) as exc:
-        raise InputError(f"`state` must hold only JSON values (text, numbers, lists, dicts); {exc}") from exc
+        raise SpecError(f"`state` must hold only JSON values (text, numbers, lists, dicts); {exc}",
+                        where="state") from exc
 
 
 def _free_name(pattern: str, taken: set[str]) -> str:
@@ -65,7 +66,6 @@ class Plan:
     """Everything one write changes, before any byte is written."""
 
     src: Source
-    specs: list[SheetSpec]
     added: list[str] = field(default_factory=list)
     replaced: list[str] = field(default_factory=list)
     removed: list[str] = field(default_factory=list)
@@ -79,16 +79,16 @@ def check_request(src: Source, specs: Sequence[SheetSpec], remove: Sequence[str]
     seen: dict[str, str] = {}
     for spec in specs:
         if not isinstance(spec, SheetSpec):
-            raise InputError(f"`sheets` must hold SheetSpec values; got {type(spec).__name__}")
+            raise SpecError(f"`sheets` must hold SheetSpec values; got {type(spec).__name__}", where="sheets")
         check_sheet_name(spec.name)
         key = spec.name.casefold()
         if key in seen:
-            raise InputError(f"two sheets to write are named '{seen[key]}' and '{spec.name}' (sheet names "
-                             "are unique ignoring case)")
+            raise SpecError(f"two sheets to write are named '{seen[key]}' and '{spec.name}' (sheet names "
+                            "are unique ignoring case)", where="sheets")
         seen[key] = spec.name
     for name in remove:
         if name.casefold() in seen:
-            raise InputError(f"sheet '{name}' is both written and removed")
+            raise SpecError(f"sheet '{name}' is both written and removed", where="remove")
     by_key = {s.name.casefold(): s for s in src.sheets}
     for name in [s.name for s in specs] + list(remove):
         info = by_key.get(name.casefold())
@@ -100,13 +100,15 @@ def check_request(src: Source, specs: Sequence[SheetSpec], remove: Sequence[str]
                         "and tocsin writes it afresh)")
             raise OwnershipError(f"sheet '{info.name}' in '{src.label}' is not tocsin's (tocsin did not "
                                  f"create it){hint}; tocsin never overwrites or removes it. Rename that "
-                                 "sheet, or choose another output sheet name")
+                                 "sheet, or choose another output sheet name",
+                                 workbook=src.label, sheet=info.name, unmarked=info.name in src.unmarked)
     if not owned:
         for spec in specs:
             info = by_key.get(spec.name.casefold())
             if info is not None:
                 raise PackageError(f"sheet '{info.name}' already exists in '{src.label}'; a sheet handed "
-                                   "to the user (owned=False) is only ever added, never replaced")
+                                   "to the user (owned=False) is only ever added, never replaced",
+                                   workbook=src.label)
     protection = src.child(src.wb, "workbookProtection")
     locked = protection is not None and protection.get("lockStructure", "0").lower() in ("1", "true")
     changes_structure = any(s.name.casefold() not in by_key for s in specs) or any(
@@ -114,12 +116,12 @@ def check_request(src: Source, specs: Sequence[SheetSpec], remove: Sequence[str]
     if locked and changes_structure:
         raise PackageError(f"'{src.label}' has a protected structure (sheets cannot be added or removed); "
                            "tocsin leaves it alone. Unprotect the workbook structure to let tocsin add its "
-                           "sheets")
+                           "sheets", workbook=src.label, part=src.wb_name)
 
 
 def make_plan(src: Source, specs: Sequence[SheetSpec], state: dict, remove: Sequence[str], *,
               owned: bool = True) -> Plan:
-    plan = Plan(src, list(specs))
+    plan = Plan(src)
     wb, wb_rels, ct = src.wb, src.wb_rels, src.ct
     by_key = {s.name.casefold(): s for s in src.sheets}
     sheet_els = [el for el in src.sheets_el if _local(el) == "sheet"]
@@ -141,7 +143,8 @@ def make_plan(src: Source, specs: Sequence[SheetSpec], state: dict, remove: Sequ
         _shift_positions(src, pos, len(sheet_els) - len(plan.removed))
     remaining = list(src.sheets)  # _shift_positions dropped the removed ones
     if plan.removed and not specs and not any(s.state == "visible" for s in remaining):
-        raise PackageError(f"'{src.label}': removing {', '.join(plan.removed)} would leave no visible sheet")
+        raise PackageError(f"'{src.label}': removing {', '.join(plan.removed)} would leave no visible sheet",
+                           workbook=src.label)
 
     # 2. the parts that stay, and names for new ones
     replaced_infos = [by_key[s.name.casefold()] for s in specs if s.name.casefold() in by_key]
@@ -153,7 +156,7 @@ def make_plan(src: Source, specs: Sequence[SheetSpec], state: dict, remove: Sequ
     taken = {n.casefold() for n in src.zip.names if n.casefold() not in plan.deleted}
 
     # 3. styles
-    keys = set().union(*(_sheetxml.style_keys(s) for s in specs)) if specs else set()
+    keys = set().union(*(_worksheet.style_keys(s) for s in specs)) if specs else set()
     style_map: dict = {}
     if specs:
         styles_rel = next(iter(wb_rels.by_type(REL.styles)), None)
@@ -372,15 +375,15 @@ def _add_sheet_parts(plan: Plan, spec: SheetSpec, part: str, taken: set[str], st
         drawing_rels = Rels(drawing, None)
         rids = [drawing_rels.add(REL.chart, cp) for cp in chart_parts]
         plan.new[rels_part_of(part)] = serialize(sheet_rels.root)
-        plan.new[drawing] = _charts.drawing_xml(spec.charts, rids)
+        plan.new[drawing] = _chart.drawing_xml(spec.charts, rids)
         plan.new[rels_part_of(drawing)] = serialize(drawing_rels.root)
         ct.set_override(drawing, CT.drawing)
         for chart, cp in zip(spec.charts, chart_parts, strict=True):
-            plan.new[cp] = _charts.chart_xml(chart, spec, date1904=src.date1904)
+            plan.new[cp] = _chart.chart_xml(chart, spec, date1904=src.date1904)
             ct.set_override(cp, CT.chart)
 
     def chunks(spec=spec, rid=drawing_rid) -> Iterator[bytes]:
-        return _sheetxml.worksheet_chunks(spec, styles=style_map, date1904=src.date1904, drawing_rid=rid,
+        return _worksheet.worksheet_chunks(spec, styles=style_map, date1904=src.date1904, drawing_rid=rid,
                                           selected=selected)
 
     plan.new[part] = chunks

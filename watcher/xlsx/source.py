@@ -10,11 +10,21 @@ from dataclasses import dataclass
 
 from lxml import etree
 
-from sheetfns.errors import PackageError
 from watcher.xlsx.archive import ZipSource
-from watcher.xlsx.opc import CT, NS, REL, ContentTypes, Rels, local_name, parse_xml, rels_part_of
+from watcher.xlsx.errors import PackageError
+from watcher.xlsx.opc import (
+    CT,
+    NS,
+    REL,
+    ContentTypes,
+    Rels,
+    local_name,
+    parse_xml,
+    prolog_problem,
+    rels_part_of,
+)
 
-__all__ = ["MARKER_FORMAT", "MARKER_PREFIX", "SHEET_MARK", "SheetInfo", "Source"]
+__all__ = ["MARKER_FORMAT", "MARKER_PREFIX", "SHEET_MARK", "SheetInfo", "Source", "member_problems"]
 
 MARKER_PREFIX = "tocsin."
 SHEET_MARK = "_tocsin_owned"
@@ -57,7 +67,8 @@ class Source:
         rels_name = zs.find("_rels/.rels")
         if ct_name is None or rels_name is None:
             raise PackageError(f"'{label}' is a zip file but not an Office Open XML package (no "
-                               f"{'[Content_Types].xml' if ct_name is None else '_rels/.rels'})")
+                               f"{'[Content_Types].xml' if ct_name is None else '_rels/.rels'})",
+                               workbook=label)
         self.ct_name, self.root_rels_name = ct_name, rels_name
         self.ct = ContentTypes(self.parse(ct_name))
         self.root_rels = Rels("", self.parse(rels_name))
@@ -65,23 +76,24 @@ class Source:
         if not docs:
             if self.root_rels.by_type(REL.strict_office_document):
                 raise PackageError(f"'{label}' is a Strict Open XML workbook, which tocsin does not edit; "
-                                   "save it as an ordinary .xlsx workbook")
-            raise PackageError(f"'{label}' has no main document; it is not a workbook")
+                                   "save it as an ordinary .xlsx workbook", workbook=label)
+            raise PackageError(f"'{label}' has no main document; it is not a workbook", workbook=label)
         wb_part = self.root_rels.part_of(docs[0])
         wb_name = zs.find(wb_part)
         content_type = self.ct.of(wb_part) or ""
         if content_type == CT.binary_workbook:
-            raise PackageError(f"'{label}' is a binary workbook (.xlsb); tocsin edits .xlsx and .xlsm only")
+            raise PackageError(f"'{label}' is a binary workbook (.xlsb); tocsin edits .xlsx and .xlsm only",
+                               workbook=label)
         if wb_name is None or content_type not in CT.workbook_types:
             raise PackageError(f"'{label}' is not a spreadsheet workbook (main part '{wb_part}' has content "
-                               f"type '{content_type or 'none'}')")
+                               f"type '{content_type or 'none'}')", workbook=label, part=wb_part)
         self.wb_name = wb_name
         self.macro_enabled = "macroEnabled" in content_type
         self.wb = self.parse(wb_name)
         if etree.QName(self.wb).namespace != NS.main:
             raise PackageError(f"'{label}': the workbook part uses namespace "
                                f"'{etree.QName(self.wb).namespace}', not transitional SpreadsheetML; "
-                               "save it as an ordinary .xlsx workbook")
+                               "save it as an ordinary .xlsx workbook", workbook=label, part=wb_name)
         wb_rels_name = zs.find(rels_part_of(wb_name))
         self.wb_rels_name = wb_rels_name or rels_part_of(wb_name)
         self.wb_rels = Rels(wb_name, self.parse(wb_rels_name) if wb_rels_name else None)
@@ -89,7 +101,8 @@ class Source:
         self.date1904 = pr is not None and pr.get("date1904", "0").lower() in ("1", "true")
         self.sheets_el = self.child(self.wb, "sheets")
         if self.sheets_el is None:
-            raise PackageError(f"'{label}': the workbook part has no <sheets> list")
+            raise PackageError(f"'{label}': the workbook part has no <sheets> list",
+                               workbook=label, part=wb_name)
         self.custom_name: str | None = None
         self.custom: etree._Element | None = None
         customs = self.root_rels.by_type(REL.custom_properties)
@@ -191,3 +204,26 @@ class Source:
                     targets.append(target)
             out[self.zip.find(source) or source] = targets
         return out
+
+
+def member_problems(zs: ZipSource, ct: ContentTypes, names: list[str] | None = None) -> dict[str, str]:
+    """What is wrong with each damaged or hostile member of a package, as messages by member name: its
+    data do not inflate to its declared size and CRC-32 (checked as a stream, reading at most one byte
+    more than declared), or an XML part declares a document type. Members tocsin only copies are
+    checked too, so a bad data sheet is found and named before any reader meets it. ``names``: only
+    these members (default all)."""
+    out = {}
+    for name in zs.names if names is None else names:
+        if name.endswith("/"):
+            continue
+        problem, head = zs.check(name)
+        if problem is None and _is_xml(ct.of(name), name):
+            why = prolog_problem(head)
+            problem = f"'{zs.label}': part '{name}' {why}" if why else None
+        if problem:
+            out[name] = problem
+    return out
+
+
+def _is_xml(content_type: str | None, name: str) -> bool:
+    return (bool(content_type) and content_type.endswith("xml")) or name.lower().endswith((".xml", ".rels"))

@@ -33,7 +33,7 @@ warning    dark red text on a light red fill (a failed status)
 good       dark green text on a light green fill
 ========== ==================================================================
 
-Every value here is checked when it is built: a bad spec raises :class:`~sheetfns.errors.InputError`
+Every value here is checked when it is built: a bad spec raises :class:`~watcher.xlsx.errors.SpecError`
 naming the sheet, block and what is wrong, long before any file is touched. Sheet-name rules of the
 format (:func:`check_sheet_name`): not empty, at most 31 characters, none of ``[]:*?/\\``, not starting
 or ending with an apostrophe, not the reserved name ``History`` (common practice of spreadsheet programs).
@@ -47,13 +47,15 @@ from typing import Any
 
 import numpy as np
 
-from sheetfns.errors import InputError
+from watcher.xlsx.errors import SheetNameError, SpecError
 
 __all__ = [
     "FORMATS",
     "MAX_COLS",
     "MAX_ROWS",
+    "MAX_SHEET_NAME",
     "MAX_TEXT",
+    "SHEET_NAME_FORBIDDEN",
     "Cells",
     "ChartSpec",
     "Column",
@@ -73,11 +75,14 @@ MAX_COLS = 16_384
 """Columns in a worksheet (A..XFD)."""
 MAX_TEXT = 32_767
 """Characters (UTF-16 code units) a cell may hold; longer text is cut and ends with an ellipsis."""
+MAX_SHEET_NAME = 31
+"""Characters a sheet name may have (common practice of spreadsheet programs)."""
+SHEET_NAME_FORBIDDEN = frozenset("[]:*?/\\")
+"""Characters a sheet name must not contain (common practice of spreadsheet programs)."""
 
 FORMATS = ("general", "integer", "dec3", "percent", "date", "datetime", "text", "bold", "italic",
            "title", "header", "warning", "good")
 
-_BAD_NAME_CHARS = set("[]:*?/\\")
 _SERIES_STYLES = ("auto", "line", "marker", "line+marker", "reference")
 
 Value = str | float | int | bool | None | _dt.date | _dt.datetime | np.datetime64
@@ -86,7 +91,7 @@ Value = str | float | int | bool | None | _dt.date | _dt.datetime | np.datetime6
 def col_letter(col: int) -> str:
     """Column letters of a 0-based column index: 0 -> 'A', 25 -> 'Z', 26 -> 'AA', 16383 -> 'XFD'."""
     if not 0 <= col < MAX_COLS:
-        raise InputError(f"column index must be in 0..{MAX_COLS - 1}; got {col}")
+        raise SpecError(f"column index must be in 0..{MAX_COLS - 1}; got {col}")
     out = ""
     col += 1
     while col:
@@ -101,35 +106,41 @@ def cell_name(row: int, col: int) -> str:
 
 
 def check_sheet_name(name: Any) -> str:
-    """Return ``name`` if it is a valid worksheet name, else raise InputError saying which rule fails."""
+    """Return ``name`` if it is a valid worksheet name, else raise :class:`SheetNameError` saying which
+    rule fails (its ``rule`` attribute names it)."""
     if not isinstance(name, str):
-        raise InputError(f"sheet name must be text; got {name!r}")
+        raise SheetNameError(f"sheet name must be text; got {name!r}", name=name, rule="type")
     if not name.strip():
-        raise InputError(f"sheet name must not be empty; got {name!r}")
-    if len(name) > 31:
-        raise InputError(f"sheet name '{name}' must be <= 31 characters; got {len(name)}")
-    bad = sorted({ch for ch in name if ch in _BAD_NAME_CHARS})
+        raise SheetNameError(f"sheet name must not be empty; got {name!r}", name=name, rule="empty")
+    if len(name) > MAX_SHEET_NAME:
+        raise SheetNameError(f"sheet name '{name}' must be <= {MAX_SHEET_NAME} characters; got {len(name)}",
+                             name=name, rule="length", limit=MAX_SHEET_NAME)
+    bad = sorted({ch for ch in name if ch in SHEET_NAME_FORBIDDEN})
     if bad:
-        raise InputError(f"sheet name '{name}' must not contain any of []:*?/\\; got {''.join(bad)!r}")
+        raise SheetNameError(f"sheet name '{name}' must not contain any of []:*?/\\; got {''.join(bad)!r}",
+                             name=name, rule="characters")
     if any(ord(ch) < 32 for ch in name):
-        raise InputError(f"sheet name {name!r} must not contain control characters")
+        raise SheetNameError(f"sheet name {name!r} must not contain control characters", name=name,
+                             rule="control")
     if name.startswith("'") or name.endswith("'"):
-        raise InputError(f"sheet name '{name}' must not start or end with an apostrophe")
+        raise SheetNameError(f"sheet name '{name}' must not start or end with an apostrophe", name=name,
+                             rule="apostrophe")
     if name.casefold() == "history":
-        raise InputError("sheet name 'History' is reserved by spreadsheet programs; choose another")
+        raise SheetNameError("sheet name 'History' is reserved by spreadsheet programs; choose another",
+                             name=name, rule="reserved")
     return name
 
 
 def _check_fmt(fmt: Any, where: str) -> str:
     if fmt not in FORMATS:
-        raise InputError(f"{where}: cell format must be one of {', '.join(FORMATS)}; got {fmt!r}")
+        raise SpecError(f"{where}: cell format must be one of {', '.join(FORMATS)}; got {fmt!r}", where=where)
     return fmt
 
 
 def _check_pos(row: Any, col: Any, where: str) -> None:
     for label, v, top in (("row", row, MAX_ROWS), ("col", col, MAX_COLS)):
         if isinstance(v, bool) or not isinstance(v, (int, np.integer)) or not 0 <= v < top:
-            raise InputError(f"{where}: `{label}` must be an integer in 0..{top - 1}; got {v!r}")
+            raise SpecError(f"{where}: `{label}` must be an integer in 0..{top - 1}; got {v!r}", where=where)
 
 
 def _frozen_array(arr: np.ndarray) -> np.ndarray:
@@ -150,8 +161,8 @@ class Ref:
         _check_pos(self.first_row, self.col, "Ref")
         _check_pos(self.last_row, self.col, "Ref")
         if self.last_row < self.first_row:
-            raise InputError(f"Ref: `last_row` must be >= `first_row`; got {self.last_row} < "
-                             f"{self.first_row}")
+            raise SpecError(f"Ref: `last_row` must be >= `first_row`; got {self.last_row} < "
+                            f"{self.first_row}")
 
     @property
     def n(self) -> int:
@@ -177,7 +188,7 @@ class Range:
         _check_pos(self.first_row, self.first_col, "Range")
         _check_pos(self.last_row, self.last_col, "Range")
         if self.last_row < self.first_row or self.last_col < self.first_col:
-            raise InputError(f"Range: last cell must not be above or left of the first; got {self!r}")
+            raise SpecError(f"Range: last cell must not be above or left of the first; got {self!r}")
 
     def a1(self) -> str:
         first = cell_name(self.first_row, self.first_col)
@@ -199,7 +210,7 @@ class Column:
             values = values.to_numpy()
         if isinstance(values, np.ndarray):
             if values.ndim != 1:
-                raise InputError(f"Column values must be one-dimensional; got shape {values.shape}")
+                raise SpecError(f"Column values must be one-dimensional; got shape {values.shape}")
             kind = values.dtype.kind
             if kind in "iub":
                 values = values.astype(float)
@@ -210,14 +221,14 @@ class Column:
             elif kind in "OUS":
                 values = tuple(values.tolist())
             else:
-                raise InputError(f"Column values must be numbers, dates or text; got dtype {values.dtype}")
+                raise SpecError(f"Column values must be numbers, dates or text; got dtype {values.dtype}")
             if isinstance(values, np.ndarray):
                 values = _frozen_array(values)
         elif isinstance(values, (str, bytes)) or not isinstance(values, Sequence):
             try:
                 values = tuple(values)
             except TypeError as exc:
-                raise InputError(f"Column values must be a sequence; got {type(values).__name__}") from exc
+                raise SpecError(f"Column values must be a sequence; got {type(values).__name__}") from exc
         else:
             values = tuple(values)
         fmt = self.fmt
@@ -228,8 +239,8 @@ class Column:
         if bold is not None:
             bold = np.asarray(bold, dtype=bool)
             if bold.shape != (len(values),):
-                raise InputError(f"Column `bold` mask must have {len(values)} entries; "
-                                 f"got shape {bold.shape}")
+                raise SpecError(f"Column `bold` mask must have {len(values)} entries; "
+                                f"got shape {bold.shape}")
             bold = _frozen_array(bold) if bold.any() else None
         object.__setattr__(self, "values", values)
         object.__setattr__(self, "fmt", fmt)
@@ -253,26 +264,26 @@ class Table:
         _check_pos(self.row, self.col, "Table")
         cols = tuple(self.columns)
         if not cols:
-            raise InputError(f"Table at {cell_name(self.row, self.col)} must have at least one column")
+            raise SpecError(f"Table at {cell_name(self.row, self.col)} must have at least one column")
         if not all(isinstance(c, Column) for c in cols):
-            raise InputError(f"Table at {cell_name(self.row, self.col)}: every column must be a Column")
+            raise SpecError(f"Table at {cell_name(self.row, self.col)}: every column must be a Column")
         lengths = {len(c) for c in cols}
         if len(lengths) != 1:
-            raise InputError(f"Table at {cell_name(self.row, self.col)}: columns must have equal length; "
-                             f"got lengths {sorted(lengths)}")
+            raise SpecError(f"Table at {cell_name(self.row, self.col)}: columns must have equal length; "
+                            f"got lengths {sorted(lengths)}")
         header = self.header
         if header is not None:
             header = tuple("" if h is None else str(h) for h in header)
             if len(header) != len(cols):
-                raise InputError(f"Table at {cell_name(self.row, self.col)}: {len(cols)} columns but "
-                                 f"{len(header)} header cells")
+                raise SpecError(f"Table at {cell_name(self.row, self.col)}: {len(cols)} columns but "
+                                f"{len(header)} header cells")
         _check_fmt(self.header_fmt, "Table header")
         object.__setattr__(self, "columns", cols)
         object.__setattr__(self, "header", header)
         if self.row + self.height > MAX_ROWS or self.col + self.width > MAX_COLS:
-            raise InputError(f"Table at {cell_name(self.row, self.col)} of {self.height} rows x "
-                             f"{self.width} columns does not fit in a worksheet "
-                             f"({MAX_ROWS:,} rows x {MAX_COLS:,} columns)")
+            raise SpecError(f"Table at {cell_name(self.row, self.col)} of {self.height} rows x "
+                            f"{self.width} columns does not fit in a worksheet "
+                            f"({MAX_ROWS:,} rows x {MAX_COLS:,} columns)")
 
     @property
     def n_rows(self) -> int:
@@ -294,14 +305,14 @@ class Table:
     def ref(self, j: int) -> Ref:
         """The data cells of column ``j`` (0-based within the table)."""
         if not 0 <= j < self.width or self.n_rows == 0:
-            raise InputError(f"Table column {j} has no data cells (table has {self.width} columns, "
-                             f"{self.n_rows} rows)")
+            raise SpecError(f"Table column {j} has no data cells (table has {self.width} columns, "
+                            f"{self.n_rows} rows)")
         return Ref(self.first_data_row, self.col + j, self.first_data_row + self.n_rows - 1)
 
     def header_ref(self, j: int) -> Ref:
         """The header cell of column ``j``."""
         if self.header is None or not 0 <= j < self.width:
-            raise InputError(f"Table column {j} has no header cell")
+            raise SpecError(f"Table column {j} has no header cell")
         return Ref(self.row, self.col + j, self.row)
 
 
@@ -326,14 +337,14 @@ class Cells:
             cells = []
             for j, pair in enumerate(r):
                 if not isinstance(pair, tuple) or len(pair) != 2:
-                    raise InputError(f"Cells at {cell_name(self.row, self.col)}: row {i + 1}, cell {j + 1} "
-                                     f"must be a (value, fmt) pair; got {pair!r}")
+                    raise SpecError(f"Cells at {cell_name(self.row, self.col)}: row {i + 1}, cell {j + 1} "
+                                    f"must be a (value, fmt) pair; got {pair!r}")
                 _check_fmt(pair[1], f"Cells at {cell_name(self.row, self.col)}, row {i + 1}, cell {j + 1}")
                 cells.append(pair)
             rows.append(tuple(cells))
         object.__setattr__(self, "rows", tuple(rows))
         if self.row + self.height > MAX_ROWS or self.col + self.width > MAX_COLS:
-            raise InputError(f"Cells at {cell_name(self.row, self.col)} do not fit in a worksheet")
+            raise SpecError(f"Cells at {cell_name(self.row, self.col)} do not fit in a worksheet")
 
     @property
     def height(self) -> int:
@@ -361,15 +372,15 @@ class Series:
 
     def __post_init__(self) -> None:
         if not isinstance(self.name, (str, Ref)):
-            raise InputError(f"Series name must be text or a Ref; got {self.name!r}")
+            raise SpecError(f"Series name must be text or a Ref; got {self.name!r}")
         if isinstance(self.name, Ref) and self.name.n != 1:
-            raise InputError("Series name Ref must be a single cell")
+            raise SpecError("Series name Ref must be a single cell")
         if not isinstance(self.values, Ref):
-            raise InputError(f"Series values must be a Ref; got {self.values!r}")
+            raise SpecError(f"Series values must be a Ref; got {self.values!r}")
         if self.x is not None and (not isinstance(self.x, Ref) or self.x.n != self.values.n):
-            raise InputError(f"Series x must be a Ref with {self.values.n} cells like its values")
+            raise SpecError(f"Series x must be a Ref with {self.values.n} cells like its values")
         if self.style not in _SERIES_STYLES:
-            raise InputError(f"Series style must be one of {', '.join(_SERIES_STYLES)}; got {self.style!r}")
+            raise SpecError(f"Series style must be one of {', '.join(_SERIES_STYLES)}; got {self.style!r}")
 
 
 @dataclass(frozen=True)
@@ -397,10 +408,10 @@ class ChartSpec:
 
     def __post_init__(self) -> None:
         if self.kind not in ("line", "scatter"):
-            raise InputError(f"ChartSpec kind must be 'line' or 'scatter'; got {self.kind!r}")
+            raise SpecError(f"ChartSpec kind must be 'line' or 'scatter'; got {self.kind!r}")
         _check_pos(self.anchor[0], self.anchor[1], f"chart '{self.title}' anchor")
         if (len(self.size) != 2 or not all(isinstance(v, int) and v >= 1 for v in self.size)):
-            raise InputError(f"chart '{self.title}': size must be (rows, cols) >= 1; got {self.size!r}")
+            raise SpecError(f"chart '{self.title}': size must be (rows, cols) >= 1; got {self.size!r}")
         series = []
         for s in self.series:
             if isinstance(s, Series):
@@ -408,28 +419,28 @@ class ChartSpec:
             elif isinstance(s, tuple) and len(s) == 2:
                 series.append(Series(s[0], s[1]))
             else:
-                raise InputError(f"chart '{self.title}': a series must be a Series or (name, ref); got {s!r}")
+                raise SpecError(f"chart '{self.title}': a series must be a Series or (name, ref); got {s!r}")
         if not series:
-            raise InputError(f"chart '{self.title}' must have at least one series")
+            raise SpecError(f"chart '{self.title}' must have at least one series")
         if self.kind == "line":
             if self.categories is not None and not isinstance(self.categories, Ref):
-                raise InputError(f"chart '{self.title}': categories must be a Ref")
+                raise SpecError(f"chart '{self.title}': categories must be a Ref")
             for s in series:
                 if self.categories is not None and s.values.n != self.categories.n:
-                    raise InputError(f"chart '{self.title}': series '{s.name}' has {s.values.n} values but "
-                                     f"there are {self.categories.n} categories")
+                    raise SpecError(f"chart '{self.title}': series '{s.name}' has {s.values.n} values but "
+                                    f"there are {self.categories.n} categories")
         else:
             for s in series:
                 xs = s.x or self.x
                 if xs is None:
-                    raise InputError(f"chart '{self.title}': scatter series '{s.name}' needs x values")
+                    raise SpecError(f"chart '{self.title}': scatter series '{s.name}' needs x values")
                 if xs.n != s.values.n:
-                    raise InputError(f"chart '{self.title}': series '{s.name}' has {s.values.n} values but "
-                                     f"{xs.n} x values")
+                    raise SpecError(f"chart '{self.title}': series '{s.name}' has {s.values.n} values but "
+                                    f"{xs.n} x values")
         for label, rng in (("x_range", self.x_range), ("y_range", self.y_range)):
             if rng is not None and (len(rng) != 2 or not float(rng[0]) < float(rng[1])):
-                raise InputError(f"chart '{self.title}': {label} must be (min, max) with min < max; "
-                                 f"got {rng!r}")
+                raise SpecError(f"chart '{self.title}': {label} must be (min, max) with min < max; "
+                                f"got {rng!r}")
         _check_fmt(self.x_fmt, f"chart '{self.title}' x_fmt")
         _check_fmt(self.y_fmt, f"chart '{self.title}' y_fmt")
         object.__setattr__(self, "series", tuple(series))
@@ -446,7 +457,7 @@ def _norm_widths(widths: Any) -> tuple[tuple[int, float], ...]:
             continue
         w = float(w)
         if not 0 < w <= 255:
-            raise InputError(f"col_widths: width of column {col_letter(col)} must be in (0, 255]; got {w}")
+            raise SpecError(f"col_widths: width of column {col_letter(col)} must be in (0, 255]; got {w}")
         out.append((int(col), w))
     return tuple(sorted(out))
 
@@ -473,8 +484,8 @@ class SheetSpec:
         blocks = tuple(self.blocks)
         for b in blocks:
             if not isinstance(b, (Table, Cells)):
-                raise InputError(f"sheet '{self.name}': a block must be a Table or Cells; "
-                                 f"got {type(b).__name__}")
+                raise SpecError(f"sheet '{self.name}': a block must be a Table or Cells; "
+                                f"got {type(b).__name__}")
         spans = sorted((_spans(b), i) for i, b in enumerate(blocks) if b.height and b.width)
         for a in range(len(spans)):
             (r0, c0, r1, c1), _ = spans[a]
@@ -483,8 +494,8 @@ class SheetSpec:
                 if s0 >= r1:
                     break
                 if d0 < c1 and c0 < d1:
-                    raise InputError(f"sheet '{self.name}': blocks at {cell_name(r0, c0)} and "
-                                     f"{cell_name(s0, d0)} overlap")
+                    raise SpecError(f"sheet '{self.name}': blocks at {cell_name(r0, c0)} and "
+                                    f"{cell_name(s0, d0)} overlap")
         object.__setattr__(self, "blocks", blocks)
         object.__setattr__(self, "col_widths", _norm_widths(self.col_widths))
         if self.freeze is not None:
@@ -496,14 +507,14 @@ class SheetSpec:
                 object.__setattr__(self, "freeze", (int(rows), int(cols)))
         charts = tuple(self.charts)
         if not all(isinstance(c, ChartSpec) for c in charts):
-            raise InputError(f"sheet '{self.name}': charts must be ChartSpec values")
+            raise SpecError(f"sheet '{self.name}': charts must be ChartSpec values")
         object.__setattr__(self, "charts", charts)
         scales = tuple(r if isinstance(r, Range) else Range(*r) for r in self.color_scales)
         object.__setattr__(self, "color_scales", scales)
         if self.tab_color is not None:
             tc = str(self.tab_color).lstrip("#").upper()
             if len(tc) != 6 or any(ch not in "0123456789ABCDEF" for ch in tc):
-                raise InputError(f"sheet '{self.name}': tab_color must be 'RRGGBB'; got {self.tab_color!r}")
+                raise SpecError(f"sheet '{self.name}': tab_color must be 'RRGGBB'; got {self.tab_color!r}")
             object.__setattr__(self, "tab_color", tc)
         last_row = max((r1 for (_, _, r1, _), _ in spans), default=0)
         last_col = max((c1 for (_, _, _, c1), _ in spans), default=0)

@@ -4,8 +4,8 @@ Spreadsheet programs and reading libraries are lenient, so they cannot be the on
 writer produces. :func:`check_package` lists, as plain messages, what breaks the rules of the format
 (ECMA-376 Part 1 and Part 2) in ways that make a spreadsheet program repair or refuse a file:
 
-* the package opens (a complete zip, no duplicate or encrypted members, XML parts well-formed, no
-  document type declarations);
+* the package opens (a complete zip, no duplicate or encrypted members, every member inflates to its
+  declared size and CRC-32, XML parts well-formed, no document type declarations);
 * every part has a content type (Override or Default), every Override names a part that exists;
 * every relationships part belongs to a part that exists, its ids are unique and every internal target
   exists;
@@ -26,13 +26,16 @@ from __future__ import annotations
 import os
 import posixpath
 import re
+import zipfile
+import zlib
 from pathlib import Path
 
 from lxml import etree
 
-from sheetfns.errors import InputError, PackageError
 from watcher.xlsx.archive import ZipSource
+from watcher.xlsx.errors import PackageError, SheetNameError
 from watcher.xlsx.opc import CT, NS, REL, ContentTypes, Rels, parse_xml
+from watcher.xlsx.source import member_problems
 from watcher.xlsx.spec import check_sheet_name
 
 __all__ = ["check_package", "WORKSHEET_ORDER"]
@@ -89,6 +92,7 @@ class _Checker:
         self.zip = ZipSource(data, label)
         self.problems: list[str] = []
         self.trees: dict[str, etree._Element] = {}
+        self.damaged: dict[str, str] = {}
 
     def bad(self, msg: str) -> None:
         self.problems.append(msg)
@@ -104,6 +108,10 @@ class _Checker:
         if ct_name is None:
             return [f"'{self.label}' has no [Content_Types].xml; it is not an Office Open XML package"]
         ct = ContentTypes(self.tree(ct_name))
+        self.damaged = member_problems(zs, ct)
+        for name in zs.names:
+            if name in self.damaged:
+                self.bad(self.damaged[name])
         for name in zs.names:
             if name == ct_name or name.endswith("/"):
                 continue
@@ -125,6 +133,8 @@ class _Checker:
             if source and zs.find(source) is None:
                 self.bad(f"relationships part '{name}' belongs to part '{source}', which does not exist")
                 continue
+            if name in self.damaged:
+                continue
             rels = Rels(source, self.tree(name))
             rels_of[zs.find(source) or source] = rels
             ids = [r.id for r in rels.rels]
@@ -138,7 +148,8 @@ class _Checker:
                     self.bad(f"'{name}': relationship '{r.id}' points at '{target}', which does not exist")
         for name in zs.names:
             kind = ct.of(name)
-            if name != ct_name and not name.endswith(".rels") and _is_xml(kind, name):
+            if (name != ct_name and not name.endswith(".rels") and _is_xml(kind, name)
+                    and name not in self.damaged):
                 if name not in self.trees and not self._is_sheet_type(kind):
                     try:
                         self.tree(name)
@@ -178,8 +189,8 @@ class _Checker:
             name = el.get("name", "")
             try:
                 check_sheet_name(name)
-            except InputError as exc:
-                if "reserved" not in str(exc):
+            except SheetNameError as exc:
+                if exc.rule != "reserved":
                     self.bad(f"workbook: {exc}")
             key = name.casefold()
             if key in names:
@@ -297,6 +308,8 @@ class _Checker:
         tab is selected."""
         where = f"sheet '{sheet}' ({part})"
         selected = False
+        if part in self.damaged:  # already said
+            return selected
         last_row = 0
         columns: dict[str, int] = {}
         tags = tuple(f"{{{NS.main}}}{t}" for t in ("row", "sheetView", "col", "cfRule"))
@@ -338,6 +351,9 @@ class _Checker:
                 root = ctx.root
             except etree.XMLSyntaxError as exc:
                 self.bad(f"{where}: not well-formed XML ({exc})")
+                return selected
+            except (zipfile.BadZipFile, zlib.error, EOFError, OSError) as exc:
+                self.bad(f"{where}: cannot be read ({exc}); the file is damaged")
                 return selected
         if root.getroottree().docinfo.doctype:
             self.bad(f"{where}: declares a document type; refused")

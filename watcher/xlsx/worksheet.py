@@ -26,27 +26,23 @@ from __future__ import annotations
 
 import datetime as _dt
 import math
-import re
 from collections.abc import Iterator, Mapping
 
 import numpy as np
 
+from watcher.xlsx.opc import NS
 from watcher.xlsx.spec import MAX_TEXT, Cells, Column, SheetSpec, Table, col_letter
+from watcher.xlsx.xmlwriter import XMLWriter, escape_data, number_text
 
 __all__ = ["CHUNK_ROWS", "date_serials", "escape_text", "style_keys", "worksheet_chunks"]
 
 CHUNK_ROWS = 32_768
-_XML_HEAD = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
-             '<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main" '
-             'xmlns:r="http://schemas.openxmlformats.org/officeDocument/2006/relationships">')
 _SCALE_COLORS = ("FFFFFFFF", "FFFBE3B2", "FFEFA23A")  # white -> light amber -> amber
 _MAX_SERIAL = 2_958_465  # 9999-12-31 in the 1900 system
 _MS_PER_DAY = 86_400_000
 _EPOCH_1900 = np.datetime64("1899-12-30", "ms").astype(np.int64)
 _EPOCH_1904 = np.datetime64("1904-01-01", "ms").astype(np.int64)
 _NAT = np.iinfo(np.int64).min
-_LITERAL_ESCAPE = re.compile(r"_(x[0-9A-Fa-f]{4}_)")
-_NOT_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\r\ud800-\udfff\ufffe\uffff]")
 
 
 # -- values --------------------------------------------------------------------------------------
@@ -64,10 +60,7 @@ def escape_text(text: str) -> tuple[str, bool]:
                 out.append(ch)
                 used += w
             text = "".join(out) + "\u2026"
-    if "_x" in text:
-        text = _LITERAL_ESCAPE.sub(r"_x005F_\1", text)
-    text = _NOT_XML.sub(lambda m: f"_x{ord(m.group()):04X}_", text)
-    text = text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+    text = escape_data(text)
     preserve = bool(text) and (text[0].isspace() or text[-1].isspace() or "\n" in text or "\t" in text
                                or "  " in text)
     return text, preserve
@@ -109,14 +102,6 @@ def _iso(value) -> str:
 
 def _is_date(v) -> bool:
     return isinstance(v, (_dt.date, np.datetime64))
-
-
-def _num_text(v: float) -> str | None:
-    if not math.isfinite(v):
-        return None
-    if v == int(v) and abs(v) <= 2**53 and not (v == 0 and math.copysign(1, v) < 0):
-        return str(int(v))
-    return repr(float(v))
 
 
 class _Styles:
@@ -161,12 +146,12 @@ class _Styles:
                 if isinstance(value, np.datetime64) and np.isnat(value):
                     return self.blank(sid)
                 return self.text(sid, _iso(value))
-            return self.number(sid, _num_text(serial))
+            return self.number(sid, number_text(serial))
         try:
             number = float(value)
         except (TypeError, ValueError):
             return self.text(sid, str(value))
-        text = _num_text(number)
+        text = number_text(number)
         return self.blank(sid) if text is None else self.number(sid, text)
 
 
@@ -268,7 +253,7 @@ class _ColumnWriter:
     def pieces(self, start: int, stop: int, suffix: str) -> list[str] | np.ndarray:
         col = self.col
         if self.kind == "object":
-            out = self._object_pieces(col.values[start:stop], suffix, bold=False)
+            out = self._object_pieces(col.values[start:stop], suffix)
         else:
             x = self.serials[start:stop] if self.kind == "date" else col.values[start:stop]
             out = _numeric_pieces(x, self.sid, suffix)
@@ -290,15 +275,15 @@ class _ColumnWriter:
     def _one(self, value, bold: bool) -> str:
         sid = self.bold_sid if bold else self.sid
         if isinstance(value, (float, np.floating)):
-            text = _num_text(float(value))
+            text = number_text(float(value))
             return self.styles.blank(sid) if text is None else self.styles.number(sid, text)
         piece = self.styles.scalar(value.item() if isinstance(value, np.generic) and not
                                    isinstance(value, np.datetime64) else value, self.col.fmt, bold)
         return self.styles.blank(sid) if piece is None else piece
 
-    def _object_pieces(self, values, suffix: str, bold: bool) -> list[str]:
+    def _object_pieces(self, values, suffix: str) -> list[str]:
         cache: dict = {}
-        sid = self.bold_sid if bold else self.sid
+        sid = self.sid
         blank = self.styles.blank(sid) + suffix
         out = []
         append = out.append
@@ -313,10 +298,10 @@ class _ColumnWriter:
                     piece = cache[v] = self.styles.text(sid, v) + suffix
                 append(piece)
             elif t is float:
-                text = _num_text(v)
+                text = number_text(v)
                 append(blank if text is None else self.styles.number(sid, text) + suffix)
             else:
-                append(self._one(v, bold) + suffix)
+                append(self._one(v, False) + suffix)
         return out
 
 
@@ -420,21 +405,95 @@ def _generic_rows(active: list[_Band], writers, styles: _Styles, seg_start: int,
     yield "".join(out)
 
 
-def _sheet_views(spec: SheetSpec, selected: bool) -> str:
-    sel = ' tabSelected="1"' if selected else ""
-    if spec.freeze is None:
-        return f'<sheetViews><sheetView{sel} workbookViewId="0"/></sheetViews>'
-    rows, cols = spec.freeze
-    top_left = f"{col_letter(cols)}{rows + 1}"
-    attrs = ""
-    if cols:
-        attrs += f' xSplit="{cols}"'
-    if rows:
-        attrs += f' ySplit="{rows}"'
-    pane = "bottomRight" if rows and cols else ("bottomLeft" if rows else "topRight")
-    return (f'<sheetViews><sheetView{sel} workbookViewId="0"><pane{attrs} topLeftCell="{top_left}" '
-            f'activePane="{pane}" state="frozen"/><selection pane="{pane}" activeCell="{top_left}" '
-            f'sqref="{top_left}"/></sheetView></sheetViews>')
+class _WorksheetWriter(XMLWriter):
+    """The parts of CT_Worksheet around the rows, one method per element in schema order; the rows of
+    ``sheetData`` are made in bulk (:func:`_sheet_data`) and streamed between :meth:`head` and
+    :meth:`tail`."""
+
+    def __init__(self, spec: SheetSpec, *, selected: bool, drawing_rid: str | None) -> None:
+        super().__init__()
+        self.spec, self.selected, self.drawing_rid = spec, selected, drawing_rid
+
+    def head(self) -> str:
+        self._declaration()
+        self._start("worksheet", (("xmlns", NS.main), ("xmlns:r", NS.r)))
+        self._write_sheet_pr()
+        self._write_dimension()
+        self._write_sheet_views()
+        self._empty("sheetFormatPr", (("defaultRowHeight", 15),))
+        self._write_cols()
+        self._start("sheetData")
+        return self.take()
+
+    def tail(self) -> str:
+        self._end("sheetData")
+        for priority, rng in enumerate(self.spec.color_scales, start=1):
+            self._write_conditional_formatting(priority, rng.a1())
+        self._empty("pageMargins", (("left", "0.7"), ("right", "0.7"), ("top", "0.75"), ("bottom", "0.75"),
+                                    ("header", "0.3"), ("footer", "0.3")))
+        if self.drawing_rid:
+            self._empty("drawing", (("r:id", self.drawing_rid),))
+        self._end("worksheet")
+        return self.take()
+
+    def _write_sheet_pr(self) -> None:
+        if self.spec.tab_color:
+            self._start("sheetPr")
+            self._empty("tabColor", (("rgb", f"FF{self.spec.tab_color}"),))
+            self._end("sheetPr")
+
+    def _write_dimension(self) -> None:
+        spec = self.spec
+        rows, cols = spec.extent
+        ref = "A1"
+        if rows and cols:
+            first_row = min(b.row for b in spec.blocks if b.height and b.width)
+            first_col = min(b.col for b in spec.blocks if b.height and b.width)
+            first, last = f"{col_letter(first_col)}{first_row + 1}", f"{col_letter(cols - 1)}{rows}"
+            ref = first if first == last else f"{first}:{last}"
+        self._empty("dimension", (("ref", ref),))
+
+    def _write_sheet_views(self) -> None:
+        self._start("sheetViews")
+        view = (("tabSelected", 1),) if self.selected else ()
+        view += (("workbookViewId", 0),)
+        if self.spec.freeze is None:
+            self._empty("sheetView", view)
+        else:
+            self._start("sheetView", view)
+            self._write_pane()
+            self._end("sheetView")
+        self._end("sheetViews")
+
+    def _write_pane(self) -> None:
+        rows, cols = self.spec.freeze
+        top_left = f"{col_letter(cols)}{rows + 1}"
+        pane = "bottomRight" if rows and cols else ("bottomLeft" if rows else "topRight")
+        attrs = (("xSplit", cols),) if cols else ()
+        attrs += (("ySplit", rows),) if rows else ()
+        self._empty("pane", attrs + (("topLeftCell", top_left), ("activePane", pane), ("state", "frozen")))
+        self._empty("selection", (("pane", pane), ("activeCell", top_left), ("sqref", top_left)))
+
+    def _write_cols(self) -> None:
+        if not self.spec.col_widths:
+            return
+        self._start("cols")
+        for c, w in self.spec.col_widths:
+            self._empty("col", (("min", c + 1), ("max", c + 1), ("width", f"{w:g}"), ("customWidth", 1)))
+        self._end("cols")
+
+    def _write_conditional_formatting(self, priority: int, sqref: str) -> None:
+        self._start("conditionalFormatting", (("sqref", sqref),))
+        self._start("cfRule", (("type", "colorScale"), ("priority", priority)))
+        self._start("colorScale")
+        self._empty("cfvo", (("type", "min"),))
+        self._empty("cfvo", (("type", "percentile"), ("val", 50)))
+        self._empty("cfvo", (("type", "max"),))
+        for rgb in _SCALE_COLORS:
+            self._empty("color", (("rgb", rgb),))
+        self._end("colorScale")
+        self._end("cfRule")
+        self._end("conditionalFormatting")
 
 
 def worksheet_chunks(spec: SheetSpec, *, styles: Mapping[tuple[str, bool], int], date1904: bool,
@@ -454,39 +513,9 @@ def worksheet_chunks(spec: SheetSpec, *, styles: Mapping[tuple[str, bool], int],
     selected : bool
         Whether the sheet's tab is the selected one (the workbook's active sheet).
     """
-    st = _Styles(styles, date1904)
-    head = [_XML_HEAD]
-    if spec.tab_color:
-        head.append(f'<sheetPr><tabColor rgb="FF{spec.tab_color}"/></sheetPr>')
-    rows, cols = spec.extent
-    ref = "A1" if not rows or not cols else f"A1:{col_letter(cols - 1)}{rows}"
-    if rows and cols:
-        first_row = min(b.row for b in spec.blocks if b.height and b.width)
-        first_col = min(b.col for b in spec.blocks if b.height and b.width)
-        ref = f"{col_letter(first_col)}{first_row + 1}:{col_letter(cols - 1)}{rows}"
-        if ref.split(":")[0] == ref.split(":")[1]:
-            ref = ref.split(":")[0]
-    head.append(f'<dimension ref="{ref}"/>')
-    head.append(_sheet_views(spec, selected))
-    head.append('<sheetFormatPr defaultRowHeight="15"/>')
-    if spec.col_widths:
-        head.append("<cols>" + "".join(
-            f'<col min="{c + 1}" max="{c + 1}" width="{w:g}" customWidth="1"/>' for c, w in spec.col_widths)
-            + "</cols>")
-    head.append("<sheetData>")
-    yield "".join(head).encode("utf-8")
-    for text in _sheet_data(spec, st, chunk_rows):
+    writer = _WorksheetWriter(spec, selected=selected, drawing_rid=drawing_rid)
+    yield writer.head().encode("utf-8")
+    for text in _sheet_data(spec, _Styles(styles, date1904), chunk_rows):
         if text:
             yield text.encode("utf-8", "surrogatepass")
-    tail = ["</sheetData>"]
-    for priority, rng in enumerate(spec.color_scales, start=1):
-        lo, mid, hi = _SCALE_COLORS
-        tail.append(f'<conditionalFormatting sqref="{rng.a1()}"><cfRule type="colorScale" '
-                    f'priority="{priority}"><colorScale><cfvo type="min"/><cfvo type="percentile" val="50"/>'
-                    f'<cfvo type="max"/><color rgb="{lo}"/><color rgb="{mid}"/><color rgb="{hi}"/>'
-                    "</colorScale></cfRule></conditionalFormatting>")
-    tail.append('<pageMargins left="0.7" right="0.7" top="0.75" bottom="0.75" header="0.3" footer="0.3"/>')
-    if drawing_rid:
-        tail.append(f'<drawing r:id="{drawing_rid}"/>')
-    tail.append("</worksheet>")
-    yield "".join(tail).encode("utf-8")
+    yield writer.tail().encode("utf-8")

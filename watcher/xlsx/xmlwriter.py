@@ -1,0 +1,138 @@
+"""The small base XML writer of the parts tocsin makes whole (worksheets, charts, drawings).
+
+A part is written by a subclass of :class:`XMLWriter` whose ``_write_<element>()`` methods call the five
+low-level ones -- :meth:`~XMLWriter._start`, :meth:`~XMLWriter._empty`, :meth:`~XMLWriter._data`,
+:meth:`~XMLWriter._number` and :meth:`~XMLWriter._end` -- in schema order. Pieces of text collect in a
+list; :meth:`~XMLWriter.take` hands them over (and empties the list), so a big part can be streamed.
+
+Escaping (XML 1.0, W3C Recommendation, 5th edition, 2008, §2.2 ``Char`` and §2.4 character data):
+
+* element text: ``&``, ``<`` and ``>`` as entity references; in attribute values also ``"`` (and tab and
+  line feed as character references, so a parser does not normalise them to spaces); ``'`` needs no
+  escape inside double quotes;
+* a character XML 1.0 cannot carry (C0 controls except tab, line feed and carriage return; unpaired
+  surrogates; U+FFFE, U+FFFF) and the carriage return (which parsers turn into a line feed) are
+  written as ``_xHHHH_``, the escape of Office Open XML strings (ECMA-376 Part 1, §22.9.2.19
+  ST_Xstring); a literal ``_xHHHH_`` in the text gets its underscore escaped (``_x005F_xHHHH_``) so it
+  reads back as itself;
+* numbers take a fast path without any escaping (:func:`number_text`: integers exactly, other doubles
+  with the shortest text that reads back as the same double).
+"""
+from __future__ import annotations
+
+import math
+import re
+from collections.abc import Iterable
+
+__all__ = ["DECLARATION", "XMLWriter", "escape_attr", "escape_data", "number_text"]
+
+DECLARATION = '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
+_NOT_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\r\ud800-\udfff\ufffe\uffff]")
+_LITERAL_ESCAPE = re.compile(r"_(x[0-9A-Fa-f]{4}_)")
+_TWO_53 = 2.0**53
+
+Attrs = Iterable[tuple[str, object]]
+
+
+def _hex_escape(m: re.Match) -> str:
+    return f"_x{ord(m.group()):04X}_"
+
+
+def escape_data(text: str) -> str:
+    """``text`` escaped for element content (see the module docstring)."""
+    if "_x" in text:
+        text = _LITERAL_ESCAPE.sub(r"_x005F_\1", text)
+    text = _NOT_XML.sub(_hex_escape, text)
+    if "&" in text:
+        text = text.replace("&", "&amp;")
+    if "<" in text:
+        text = text.replace("<", "&lt;")
+    if ">" in text:
+        text = text.replace(">", "&gt;")
+    return text
+
+
+def escape_attr(text: str) -> str:
+    """``text`` escaped for an attribute value in double quotes (see the module docstring)."""
+    text = escape_data(text)
+    if '"' in text:
+        text = text.replace('"', "&quot;")
+    if "\t" in text or "\n" in text:
+        text = text.replace("\t", "&#9;").replace("\n", "&#10;")
+    return text
+
+
+def number_text(v: float) -> str | None:
+    """A number as XML text with round-trip precision: integers exactly ('3', not '3.0'), other doubles
+    as the shortest text that reads back as the same double ('0.1', '-0.0', '5e-324'); None for NaN and
+    infinities, which XML numbers cannot hold."""
+    if not math.isfinite(v):
+        return None
+    if v == int(v) and abs(v) <= _TWO_53 and not (v == 0 and math.copysign(1, v) < 0):
+        return str(int(v))
+    return repr(float(v))
+
+
+def _attr_text(attrs: Attrs) -> str:
+    out = ""
+    for name, value in attrs:
+        t = type(value)
+        if t is int:  # the fast path: numbers need no escaping
+            out += f' {name}="{value}"'
+        elif t is str:
+            out += f' {name}="{escape_attr(value)}"'
+        else:
+            out += f' {name}="{number_text(float(value))}"'
+    return out
+
+
+class XMLWriter:
+    """Collects one XML part as pieces of text.
+
+    Subclasses write a part with one ``_write_<element>()`` method per element, in schema order, each
+    calling the low-level methods below. Attributes are ``(name, value)`` pairs; an ``int`` value is
+    written as it is, a ``float`` through :func:`number_text`, text escaped.
+    """
+
+    def __init__(self) -> None:
+        self._pieces: list[str] = []
+        self._put = self._pieces.append
+
+    # -- the low-level methods -------------------------------------------------------------------
+    def _declaration(self) -> None:
+        self._put(DECLARATION)
+
+    def _start(self, tag: str, attrs: Attrs = ()) -> None:
+        """``<tag a="1">``"""
+        self._put(f"<{tag}{_attr_text(attrs)}>" if attrs else f"<{tag}>")
+
+    def _empty(self, tag: str, attrs: Attrs = ()) -> None:
+        """``<tag a="1"/>``"""
+        self._put(f"<{tag}{_attr_text(attrs)}/>" if attrs else f"<{tag}/>")
+
+    def _data(self, tag: str, text: str, attrs: Attrs = ()) -> None:
+        """``<tag>text</tag>`` with ``text`` escaped."""
+        self._put(f"<{tag}{_attr_text(attrs)}>{escape_data(text)}</{tag}>")
+
+    def _number(self, tag: str, value: int | str, attrs: Attrs = ()) -> None:
+        """``<tag>value</tag>`` for an ``int`` or the text of a number: no escaping (the fast path)."""
+        self._put(f"<{tag}{_attr_text(attrs)}>{value}</{tag}>" if attrs else f"<{tag}>{value}</{tag}>")
+
+    def _end(self, tag: str) -> None:
+        """``</tag>``"""
+        self._put(f"</{tag}>")
+
+    def _raw(self, xml: str) -> None:
+        """Text that is already XML (e.g. rows of cells made in bulk)."""
+        self._put(xml)
+
+    # -- output ----------------------------------------------------------------------------------
+    def take(self) -> str:
+        """The text written since the last call, as one string; the collected pieces are dropped."""
+        text = "".join(self._pieces)
+        self._pieces.clear()
+        return text
+
+    def getvalue(self) -> bytes:
+        """Everything written (since the last :meth:`take`) as UTF-8 bytes."""
+        return self.take().encode("utf-8")
