@@ -52,7 +52,3 @@ class CriterionError(InputError):
 class PartitionError(InputError):
     """Dates or sizes do not allow the requested training / validation split; ``location`` is the
     1-based row of the first offending date where there is one."""
-
-
-class JobError(TocsinError):
-    """A row of the job table is invalid; the message names the row, the setting and the value."""

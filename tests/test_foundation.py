@@ -13,8 +13,11 @@ CORE = ["sheetfns", "sheetfns.errors", "sheetfns.checks", "sheetfns.events", "sh
 def test_errors_are_value_errors():
     from sheetfns import errors
     from watcher.xlsx import errors as xlsx_errors
-    for name in ("TocsinError", "InputError", "CriterionError", "PartitionError", "JobError"):
+    from watcher.refresh import errors as refresh_errors
+    for name in ("TocsinError", "InputError", "CriterionError", "PartitionError"):
         assert issubclass(getattr(errors, name), ValueError), name
+    for name in ("JobError", "ReaderError", "BookError"):
+        assert issubclass(getattr(refresh_errors, name), ValueError), name
     for name in ("XlsxError", "SpecError", "SheetNameError", "PackageError", "OwnershipError",
                  "ConcurrentEditError"):
         assert issubclass(getattr(xlsx_errors, name), xlsx_errors.XlsxError), name
