@@ -48,6 +48,10 @@ METHOD_LABELS: dict[str, str] = {
     "logistic": "logistic",
 }
 
+# The methods whose forecast is a probability (DESIGN.md §8): the majority share is one, a vote or a
+# naive forecast is not, so those report only their 0/1 forecast, never a chance.
+PROBABILITY_METHODS = frozenset({"majority", "majority_roll", "logistic", "value_model", "markov"})
+
 _PREFERENCE = ("majority", "majority_roll", "naive_roll", "naive", "seasonal_roll", "seasonal", "logistic")
 
 # Scorecard rows: (key in the score dicts, label shown, kind) where kind picks the cell format and
@@ -99,6 +103,20 @@ class Method:
 
 
 @dataclass(frozen=True)
+class FuturePeriod:
+    """One future period: its row, the row its forecasts were made at, and each method's forecast.
+
+    ``forecasts`` maps a method key to ``(forecast, probability)``: the 0/1 forecast, and the
+    probability for the methods of :data:`PROBABILITY_METHODS` (None for the others). A method with no
+    forecast for the row is left out.
+    """
+
+    row: int
+    origin: int
+    forecasts: dict[str, tuple[int, float | None]]
+
+
+@dataclass(frozen=True)
 class Evaluation:
     """What a forecast sheet shows: every method row by row, the scorecard and the verdict."""
 
@@ -114,6 +132,7 @@ class Evaluation:
     notes: tuple[str, ...] = field(default_factory=tuple)
     reliability: Any = None  # reliability table of the logistic validation probabilities
     roc: Any = None  # ROC points of the logistic validation probabilities
+    horizon: int = 1
 
     @property
     def period(self) -> np.ndarray:
@@ -125,6 +144,23 @@ class Evaluation:
 
     def method(self, key: str) -> Method:
         return next(m for m in self.methods if m.key == key)
+
+    def future(self) -> list[FuturePeriod]:
+        """Every future period in time order, with its origin: the target row minus the horizon, or the
+        last observed row for periods further ahead than the horizon (the benchmarks fill them from it).
+        """
+        out = []
+        for t in range(self.last_observed + 1, self.n):
+            forecasts: dict[str, tuple[int, float | None]] = {}
+            for m in self.methods:
+                f = float(m.forecast[t])
+                if math.isnan(f):
+                    continue
+                p = float(m.prob[t]) if m.key in PROBABILITY_METHODS else None
+                forecasts[m.key] = (int(f), None if p is None or math.isnan(p) else p)
+            out.append(FuturePeriod(row=t, origin=min(t - self.horizon, self.last_observed),
+                                    forecasts=forecasts))
+        return out
 
     def headline(self) -> dict[str, tuple[float, float]]:
         """Per method, (0/1 forecast, probability) for the first future row (NaN when there is none)."""
@@ -345,7 +381,8 @@ def evaluate(events: Any, *, train_size: int, settings: Settings | None = None, 
     verdict = _verdict(best, card, comparisons)
     return Evaluation(n=n, train_size=train_size, last_observed=last, methods=tuple(methods),
                       scorecard=card, best=best, comparisons=comparisons, verdict=verdict,
-                      coefficients=coefficients, notes=tuple(notes), reliability=reliability, roc=roc)
+                      coefficients=coefficients, notes=tuple(notes), reliability=reliability, roc=roc,
+                      horizon=settings.horizon)
 
 
 def _slice(m: Method, sl: slice) -> Method:

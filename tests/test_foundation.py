@@ -12,8 +12,8 @@ CORE = ["sheetfns", "sheetfns.errors", "sheetfns.checks", "sheetfns.events", "sh
 
 def test_errors_are_value_errors():
     from sheetfns import errors
-    from watcher.xlsx import errors as xlsx_errors
     from watcher.refresh import errors as refresh_errors
+    from watcher.xlsx import errors as xlsx_errors
     for name in ("TocsinError", "InputError", "CriterionError", "PartitionError"):
         assert issubclass(getattr(errors, name), ValueError), name
     for name in ("JobError", "ReaderError", "BookError"):

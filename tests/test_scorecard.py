@@ -113,3 +113,17 @@ def test_a_full_tie_marks_no_best_value():
     accuracy_table = next(t for t in score_tables if "accuracy" in t.columns[0].values)
     i = list(accuracy_table.columns[0].values).index("accuracy")
     assert not any(c.bold is not None and c.bold[i] for c in accuracy_table.columns[1:])
+
+
+def test_future_lists_every_future_period_with_its_origin_and_no_chance_for_a_vote():
+    """Horizon 3, data ending on row 39 and three blank rows: the periods 40, 41, 42 made at rows 37, 38,
+    39 (t - h). A naive forecast and a vote carry no probability (DESIGN.md §8); the share does."""
+    rng = np.random.default_rng(7)  # simulated 0/1 series (a property check, not a published value)
+    y = np.r_[(rng.random(40) < 0.4).astype(float), [np.nan] * 3]
+    ev = evaluate(y, train_size=30, settings=Settings(horizon=3))
+    fut = ev.future()
+    assert [(f.row, f.origin) for f in fut] == [(40, 37), (41, 38), (42, 39)]
+    for f in fut:
+        assert f.forecasts["naive_roll"][1] is None and f.forecasts["majority"][1] is not None
+        assert f.forecasts["naive_roll"][0] == int(y[f.origin])  # persistence from the origin
+        assert f.forecasts["majority_roll"][1] == pytest.approx(np.nanmean(y[:f.origin + 1]))
