@@ -41,8 +41,8 @@ from openpyxl.utils import get_column_letter
 
 # The job table's header row: every setting of the job table, in the documented order.
 SETTINGS = ("job", "data_sheet", "date_column", "value_column", "event", "min_run", "season", "cycle",
-            "harmonics", "validation", "horizon", "lags", "predictors", "known_ahead", "refit", "cutoff",
-            "cost_false_alarm", "cost_miss", "output_sheet", "enabled")
+            "harmonics", "validation", "horizon", "lags", "predictors", "known_ahead", "refit", "alert",
+            "cutoff", "cost_false_alarm", "cost_miss", "output_sheet", "enabled")
 
 NOTE = ("Blank settings take their defaults. One row per forecast job; the table ends at the first "
         "blank row. See the README, section 'The job table'.")

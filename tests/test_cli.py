@@ -159,7 +159,7 @@ def test_unknown_setting_name_suggests_the_closest(tmp_path, capsys):
     path = write_book(tmp_path / "unk.xlsx", {"Macro": macrodata_rows(), "tocsin": table})
     code, out, err = run_cli(capsys, "refresh", str(path))
     assert code == 1
-    assert "unknown setting 'horizn' in cell U1 of sheet tocsin; did you mean 'horizon'?" in err
+    assert "unknown setting 'horizn' in cell V1 of sheet tocsin; did you mean 'horizon'?" in err
     no_traceback(err)
 
 
@@ -211,7 +211,7 @@ def test_json_report(tmp_path, capsys):
     jobs = {j["job"]: j for j in first["jobs"]}
     assert set(jobs) == {"gdp fall", "broken"}
     assert all(set(j) == {"job", "status", "message", "sheet", "next_period", "next_probability",
-                          "best_method"} for j in jobs.values())
+                          "best_method", "warnings", "future", "alert"} for j in jobs.values())
     good = jobs["gdp fall"]
     core = core_reference(path, "gdp fall")
     assert good["status"] == "ok" and good["sheet"] == "gdp fall forecast"

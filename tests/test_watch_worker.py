@@ -278,7 +278,8 @@ def test_log_lines_and_json_records(tmp_path):
     records = [json.loads(x) for x in (tmp_path / "log.jsonl").read_text().splitlines()]
     assert [r["event"] for r in records] == ["refresh", "refresh", "waiting"]
     assert records[0]["jobs"][0] == {"name": "crowded", "status": "ok", "message": "",
-                                     "next_forecast": None, "best_method": "majority vote"}
+                                     "next_forecast": None, "best_method": "majority vote",
+                                     "next_period": None, "warnings": [], "future": [], "alert": None}
     assert records[1]["status"] == "unchanged"
     assert records[2]["owner_file"] == "/share/~$bakery.xlsx"
 

@@ -16,6 +16,8 @@ import sys
 from collections.abc import Sequence
 from pathlib import Path
 
+from watcher.alert.errors import AlertOptionError
+from watcher.alert.options import add_alert_arguments, dispatcher_from_args
 from watcher.cli.watch import add_watch_arguments, run_watch
 from watcher.refresh.texts import CAUTION, VERSION, describe
 
@@ -63,6 +65,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("books", type=Path, nargs="+", metavar="BOOK")
     p.add_argument("--json", action="store_true", help="print a machine-readable report")
     p.add_argument("--force", action="store_true", help="rewrite even when the inputs are unchanged")
+    add_alert_arguments(p)
 
     p = sub.add_parser("watch", help="keep forecast sheets current whenever a workbook is saved",
                        description="Watch folders (recursively) or single workbooks and refresh each "
@@ -119,9 +122,15 @@ def _cmd_check(args: argparse.Namespace) -> int:
 def _cmd_refresh(args: argparse.Namespace) -> int:
     from watcher.cli import tables as report  # when it runs (see the module docstring)
     from watcher.refresh import workbook as refresh
+    try:
+        dispatcher = dispatcher_from_args(args)
+    except AlertOptionError as exc:  # a usage error: before any workbook is read
+        print(f"error: {exc}", file=sys.stderr)
+        return 2
     reports = []
     for book in args.books:
-        rep = refresh.refresh_workbook(book, force=args.force, progress=_stderr_progress())
+        rep = refresh.refresh_workbook(book, force=args.force, progress=_stderr_progress(),
+                                       dispatcher=dispatcher)
         if sys.stderr.isatty():
             sys.stderr.write("\r\x1b[K")
         reports.append(rep)
@@ -129,6 +138,8 @@ def _cmd_refresh(args: argparse.Namespace) -> int:
             print(report.refresh_text(rep))
         for line in report.refresh_errors(rep):
             print(f"error: {line}", file=sys.stderr)
+        for line in report.alert_failures(rep):  # logged; never the refresh's failure
+            print(f"alert failed: {line}", file=sys.stderr)
     if args.json:
         print(json.dumps([report.refresh_dict(r) for r in reports], indent=2))
     return 0 if all(r.ok for r in reports) else 1

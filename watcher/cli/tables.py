@@ -17,8 +17,38 @@ def _pct(p: float | None) -> str:
     return "-" if p is None or (isinstance(p, float) and math.isnan(p)) else f"{p:.0%}"
 
 
+WARNINGS_SHOWN = 5
+"""Warning sentences printed under a job before a count of the rest takes over."""
+
+
+def _next(j: Any) -> str:
+    """The next period's forecast of the best method in words: a chance for a method that states one,
+    the 0/1 forecast for one that does not (a naive or majority-vote forecast is never a chance)."""
+    if not j.next_period:
+        return "no future period in the data"
+    if j.next_forecast is not None or not j.best_key:
+        return f"next period {j.next_period}: {_pct(j.next_forecast)} chance of the event"
+    first = j.future[0]["forecasts"].get(j.best_key) if j.future else None
+    if first is None:
+        return f"next period {j.next_period}: no forecast"
+    return f"next period {j.next_period}: {'event' if first['forecast'] else 'no event'} forecast"
+
+
+def _alert_text(alert: dict[str, Any] | None) -> str | None:
+    """The job's alert in this refresh, on one line (None when nothing rang and nothing failed)."""
+    if not alert or not (alert.get("rang") or alert.get("failures")):
+        return None
+    sent = ", ".join(alert.get("delivered") or ()) or "no channel"
+    text = (f"alert {alert.get('rang') or 'due'} ({alert.get('method')}, {alert.get('period')}): "
+            f"sent to {sent}")
+    if alert.get("failures"):
+        text += f"; {len(alert['failures'])} failed (tried again at the next refresh)"
+    return text
+
+
 def refresh_text(rep: Any) -> str:
-    """One line for the workbook, then one line per job."""
+    """One line for the workbook, then one line per job, its warnings (one line each, capped) and its
+    alert."""
     head = f"{rep.path.name}: {rep.status}" + (f" ({rep.message})" if rep.message else "") + \
         f" in {rep.duration_s:.1f} s"
     lines = [head]
@@ -26,9 +56,16 @@ def refresh_text(rep: Any) -> str:
         if j.status == "failed":
             lines.append(f"  {_shown(j.name)}: FAILED: {_shown(j.message)}")
             continue
-        nxt = (f"next period {j.next_period}: {_pct(j.next_forecast)} chance of the event"
-               if j.next_period else "no future period in the data")
-        lines.append(f"  {_shown(j.name)}: {j.status}; {nxt} (best by Brier: {j.best_method or '-'})")
+        lines.append(f"  {_shown(j.name)}: {j.status}; {_next(j)} (best by Brier: {j.best_method or '-'})")
+        warnings = list(getattr(j, "warnings", ()))
+        lines += [f"    warning: {_shown(w)}" for w in warnings[:WARNINGS_SHOWN]]
+        if len(warnings) > WARNINGS_SHOWN:
+            more = len(warnings) - WARNINGS_SHOWN
+            lines.append(f"    ... and {more} more warning{'s' * (more > 1)} (see --json or the sheet's "
+                         "notes)")
+        alert = _alert_text(getattr(j, "alert", None))
+        if alert:
+            lines.append(f"    {_shown(alert)}")
     return "\n".join(lines)
 
 
@@ -42,8 +79,14 @@ def refresh_errors(rep: Any) -> list[str]:
     return [_shown(line) for line in out]
 
 
+def alert_failures(rep: Any) -> list[str]:
+    """The alert deliveries that failed, one line each, for stderr (they never fail the refresh)."""
+    return [_shown(f"{rep.path.name}: job {j.name!r}: {failure}; tried again at the next refresh")
+            for j in rep.jobs for failure in ((getattr(j, "alert", None) or {}).get("failures") or ())]
+
+
 def refresh_dict(rep: Any) -> dict[str, Any]:
-    """A machine-readable report for scheduled runs."""
+    """A machine-readable report for scheduled runs (DESIGN.md §8)."""
     def clean(x: Any) -> Any:
         return None if isinstance(x, float) and math.isnan(x) else x
 
@@ -55,7 +98,9 @@ def refresh_dict(rep: Any) -> dict[str, Any]:
         "duration_s": round(rep.duration_s, 3),
         "jobs": [{"job": j.name, "status": j.status, "message": j.message, "sheet": j.sheet,
                   "next_period": j.next_period, "next_probability": clean(j.next_forecast),
-                  "best_method": j.best_method} for j in rep.jobs],
+                  "best_method": j.best_method, "warnings": list(getattr(j, "warnings", ())),
+                  "future": list(getattr(j, "future", ())), "alert": getattr(j, "alert", None)}
+                 for j in rep.jobs],
     }
 
 

@@ -16,6 +16,8 @@ from collections.abc import Callable, Sequence
 from typing import Any
 
 from sheetfns.errors import InputError
+from watcher.alert.errors import AlertOptionError
+from watcher.alert.options import add_alert_arguments, dispatcher_from_args
 from watcher.watch.log import WatchLog
 from watcher.watch.service import Watcher
 
@@ -49,13 +51,30 @@ def add_watch_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentPar
                         help="do not refresh, at start, the workbooks whose inputs changed while tocsin "
                              "was not watching")
     parser.add_argument("--log", metavar="FILE", default=None,
-                        help="also append one JSON object per event (refresh, waiting, start, stop) to FILE")
+                        help="also append one JSON object per event (refresh, alert, alert-failed, waiting, "
+                             "start, stop) to FILE")
+    add_alert_arguments(parser)
     return parser
 
 
 def run_watch(args: argparse.Namespace) -> int:
     """Run the watcher from parsed arguments (see ``add_watch_arguments``); returns the exit code."""
-    return main_watch(args.paths, poll=args.poll, quiet=args.quiet, initial=not args.no_initial, log=args.log)
+    try:
+        dispatcher = dispatcher_from_args(args)
+    except AlertOptionError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return 2
+    return main_watch(args.paths, poll=args.poll, quiet=args.quiet, initial=not args.no_initial, log=args.log,
+                      dispatcher=dispatcher)
+
+
+def _alerting_refresh(dispatcher: Any) -> Callable[..., Any]:
+    """The refresh with the alert channels; the refresh is imported at the first call (see
+    :func:`watcher.watch.service._load_refresh`), not when the command starts."""
+    def refresh(path: Any, **options: Any) -> Any:
+        from watcher.refresh.workbook import refresh_workbook
+        return refresh_workbook(path, dispatcher=dispatcher, **options)
+    return refresh
 
 
 def main_watch(
@@ -68,10 +87,12 @@ def main_watch(
     refresh: Callable[..., Any] | None = None,
     stop_event: threading.Event | None = None,
     write_grace: float = 10.0,
+    dispatcher: Any = None,
 ) -> int:
     """Watch until SIGTERM, Ctrl-C or ``stop_event``; return 0, or 2 for bad arguments, 1 if it cannot run.
 
-    Errors print ``error: ...`` on stderr, without a traceback.
+    ``dispatcher`` (:func:`watcher.alert.options.dispatcher_from_args`) says where alerts go; None: nowhere
+    (the states are still recorded). Errors print ``error: ...`` on stderr, without a traceback.
     """
     stop = stop_event if stop_event is not None else threading.Event()
     try:
@@ -79,6 +100,8 @@ def main_watch(
     except OSError as exc:
         print(f"error: {exc}", file=sys.stderr)
         return 2
+    if refresh is None and dispatcher is not None:
+        refresh = _alerting_refresh(dispatcher)
     try:
         watcher = Watcher(paths, refresh=refresh, quiet=quiet, poll=poll, initial=initial, log=watch_log,
                           write_grace=write_grace)
@@ -92,6 +115,9 @@ def main_watch(
         reason["text"] = f"stopped ({signal.Signals(signum).name})"
         stop.set()
 
+    if dispatcher is not None and dispatcher.channels:  # before the first refresh can ring
+        watch_log.event("alerts", f"tocsin watch: {dispatcher.describe()}",
+                        channels=list(dispatcher.channels))
     previous = None
     in_main = threading.current_thread() is threading.main_thread()
     if in_main and hasattr(signal, "SIGTERM"):

@@ -28,6 +28,8 @@ Settings (blank = default)
 ``predictors``            comma-separated column names (lagged by the horizon); default none
 ``known_ahead``           comma-separated column names (not lagged); default none
 ``refit``                 ``fixed``, ``roll`` or ``roll N``; default ``fixed``
+``alert``                 the method whose next-period forecast rings (DESIGN.md §13): ``best``
+                          (default), a method key (``naive``, ``logistic``, ...) or ``off``
 ``cutoff``                number in (0, 1); default ``cost_false_alarm / (cost_false_alarm +
                           cost_miss)``, which is 0.5 with the default costs
 ``cost_false_alarm``      number > 0; default 1 (also used for the expected cost in the scorecard)
@@ -111,6 +113,7 @@ class Job:
     predictors: tuple[str, ...] = ()
     known_ahead: tuple[str, ...] = ()
     refit: str = "fixed"
+    alert: str = "best"
     cutoff: float = 0.5
     cost_false_alarm: float = 1.0
     cost_miss: float = 1.0

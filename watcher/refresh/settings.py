@@ -20,7 +20,10 @@ from typing import Any
 
 from sheetfns.events import Criterion, parse_criterion
 from sheetfns.logistic import parse_refit
+from sheetfns.scorecard import METHOD_LABELS
 from sheetfns.scores import cost_cutoff
+from watcher.alert.errors import AlertSettingError
+from watcher.alert.state import alert_setting
 from watcher.refresh.cells import cell_text, plain_number, show, text_stamp
 from watcher.refresh.errors import JobError, ReaderError
 from watcher.refresh.sheetnames import output_names, sheet_name_problem
@@ -30,12 +33,12 @@ __all__ = ["SETTINGS", "DEFAULTS", "IGNORED_COLUMNS", "Row", "parse_enabled", "p
            "parse_row", "row_label"]
 
 SETTINGS = ("job", "data_sheet", "date_column", "value_column", "event", "min_run", "season", "cycle",
-            "harmonics", "validation", "horizon", "lags", "predictors", "known_ahead", "refit", "cutoff",
-            "cost_false_alarm", "cost_miss", "output_sheet", "enabled")
+            "harmonics", "validation", "horizon", "lags", "predictors", "known_ahead", "refit", "alert",
+            "cutoff", "cost_false_alarm", "cost_miss", "output_sheet", "enabled")
 #: Defaults of the settings that have a fixed one (season, cycle, validation and cutoff depend on
 #: the data or on other settings; see :mod:`watcher.refresh.jobs`).
 DEFAULTS: Mapping[str, Any] = {"min_run": 1, "harmonics": 2, "horizon": 1, "lags": 1, "refit": "fixed",
-                               "cost_false_alarm": 1.0, "cost_miss": 1.0, "enabled": True}
+                               "alert": "best", "cost_false_alarm": 1.0, "cost_miss": 1.0, "enabled": True}
 IGNORED_COLUMNS = frozenset({"note", "notes", "comment", "comments"})
 _TRUE = {"true", "yes", "1", "y", "on"}
 _FALSE = {"false", "no", "0", "n", "off"}
@@ -223,6 +226,14 @@ def _refit(r: Row) -> str | None:
     return text
 
 
+def _alert(r: Row) -> str:
+    """The method whose forecast rings (DESIGN.md §13): ``best`` (blank), ``off`` or a method key."""
+    try:
+        return alert_setting(r.get("alert"), methods=METHOD_LABELS)
+    except AlertSettingError:
+        raise r.bad("alert", f"must be best, off or a method key ({', '.join(METHOD_LABELS)})") from None
+
+
 def _columns_list(r: Row, name: str) -> tuple[str, ...]:
     v = r.get(name)
     if v is None:
@@ -353,7 +364,7 @@ def parse_row(r: Row, book: Any) -> tuple[dict[str, Any] | None, list[JobError]]
     values: dict[str, Any] = {
         "min_run": take(_whole, r, "min_run", 1), "season": take(_whole, r, "season", 1),
         "harmonics": take(_whole, r, "harmonics", 0), "horizon": take(_whole, r, "horizon", 1),
-        "lags": take(_whole, r, "lags", 0), "refit": take(_refit, r),
+        "lags": take(_whole, r, "lags", 0), "refit": take(_refit, r), "alert": take(_alert, r),
         "predictors": take(_columns_list, r, "predictors") or (),
         "known_ahead": take(_columns_list, r, "known_ahead") or (),
         "validation": take(_validation, r, r.get("date_column") is not None),
@@ -406,8 +417,9 @@ def parse_row(r: Row, book: Any) -> tuple[dict[str, Any] | None, list[JobError]]
         criterion=event[1], date_column=date_column, min_run=given("min_run"), season=values["season"],
         cycle=cycle, harmonics=given("harmonics"), validation=values["validation"], horizon=given("horizon"),
         lags=given("lags"), predictors=values["predictors"], known_ahead=values["known_ahead"],
-        refit=given("refit"), cutoff=float(cutoff), cost_false_alarm=cfa, cost_miss=cmiss,
-        output_sheet=forecast_sheet, profile_sheet=profile_sheet, enabled=True, defaults=defaults,
+        refit=given("refit"), alert=values["alert"], cutoff=float(cutoff), cost_false_alarm=cfa,
+        cost_miss=cmiss, output_sheet=forecast_sheet, profile_sheet=profile_sheet, enabled=True,
+        defaults=defaults,
         settings=tuple((s, cell_text(r.cells.get(s))) for s in SETTINGS)), []
 
 

@@ -25,11 +25,13 @@ from collections.abc import Callable, Collection
 from pathlib import Path
 from typing import Any
 
+from watcher.alert.deliver import Dispatcher
 from watcher.refresh import layout
-from watcher.refresh.compute import JobOutcome, compute_job, digest, event_text, summary
+from watcher.refresh.alerts import RECORD_KEY, Rang, ring_jobs
+from watcher.refresh.compute import JobOutcome, compute_job, digest, event_text
 from watcher.refresh.jobs import TABLE_SHEET, JobTable, read_job_table
 from watcher.refresh.reader import Book
-from watcher.refresh.report import JobReport, RefreshReport, job_report
+from watcher.refresh.report import JobReport, RefreshReport, job_record, job_report
 from watcher.refresh.settings import Row
 from watcher.refresh.sheetnames import output_names
 from watcher.refresh.texts import VERSION, describe
@@ -161,7 +163,8 @@ def _evaluate_job(book: Book, job: Any, known: dict[str, str], sheet: str) -> Jo
         msg = str(Row(dict(job.settings), job.row, sheet).bad(
             "data_sheet", "must name a sheet whose columns can be read", value=job.data_sheet, hint=str(exc)))
         return failed(msg, digest([dict(job.settings), msg], None))
-    fp = digest(dict(job.settings), data)
+    # the `alert` setting changes no sheet: turning alerts on or off rings (or silences) without a recompute
+    fp = digest({k: v for k, v in job.settings if k != "alert"}, data)
     if known.get(job.name) == fp:
         return JobOutcome(job, job.name, job.output_sheet, job.profile_sheet, fp, unchanged=True)
     try:
@@ -187,12 +190,16 @@ def _read_only(path: Path) -> bool:
     return mode & 0o222 == 0 or not os.access(path, os.W_OK)
 
 
-def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progress = None) -> RefreshReport:
+def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progress = None,
+                     dispatcher: Dispatcher | None = None) -> RefreshReport:
     """Refresh every job of the workbook at ``path``; never raises for a bad workbook or job.
 
     Statuses are those of :mod:`watcher.refresh.report`. ``progress`` (see :data:`Progress`) is called
     before each job and before the write; the watcher's callback may raise there to abandon the refresh
-    (nothing is written then).
+    (nothing is written then). ``dispatcher`` says where alerts go (:mod:`watcher.refresh.alerts`; None:
+    nowhere, the alert states are still kept). Every job rings on every refresh, unchanged ones on what
+    was recorded last time; a delivery that fails is reported in the job's ``alert`` and never fails the
+    refresh. When only the alert records changed, only tocsin's record is written (status "unchanged").
     """
     path = Path(path)
     start = time.monotonic()
@@ -228,8 +235,16 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
     disabled = {d.name for d in table.disabled if d.name}
     current = {o.name for o in outcomes} | (disabled & set(old))
     if all(o.unchanged for o in outcomes) and current == set(old):
-        return done("unchanged", tuple(job_report(o, old) for o in outcomes),
-                    "inputs unchanged since the last refresh")
+        rang = _ring(path, outcomes, old, old, dispatcher, progress)
+        reports = tuple(job_report(o, old, rang[o.name].entry) for o in outcomes)
+        if not any(r.changed for r in rang.values()):
+            return done("unchanged", reports, "inputs unchanged since the last refresh")
+        new = {n: _with_alert(r, rang.get(n)) for n, r in old.items()}
+        status, msg = _write(path, pkg, [], {**state, "jobs": new}, (), progress)
+        if status != "refreshed":
+            return done(status, reports if status == "failed" else (), msg)
+        return done("unchanged", reports, "inputs unchanged since the last refresh; the alert record was "
+                                          "updated")
     refreshed_at = dt.datetime.now().replace(microsecond=0)
     new: dict[str, dict] = {n: old[n] for n in disabled if n in old}  # a disabled job keeps its sheets
     sheets: list[Any] = []
@@ -240,18 +255,50 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
         outcomes[i], specs = lay_out(o, refreshed_at)
         sheets.extend(specs)
         new[o.name] = {"fingerprint": o.fingerprint, "sheets": [sp.name for sp in specs],
-                       **summary(outcomes[i])}
+                       **job_record(outcomes[i])}
+    rang = _ring(path, outcomes, new, old, dispatcher, progress)
+    new = {n: _with_alert(r, rang.get(n)) for n, r in new.items()}
+    reports = tuple(job_report(o, new, rang[o.name].entry) for o in outcomes)
     keep = {s.casefold() for rec in new.values() for s in rec.get("sheets", [])}
     remove = [s for s in pkg.owned if s.casefold() not in keep]
     state["jobs"] = new
     state["version"] = VERSION
+    status, msg = _write(path, pkg, sheets, state, remove, progress)
+    if status != "refreshed":
+        return done(status, reports if status == "failed" else (), msg)
+    msg = "; ".join(e.message for e in table.errors if not e.job)
+    return done("refreshed", reports, msg)
+
+
+def _ring(path: Path, outcomes: list[JobOutcome], records: dict[str, dict], old: dict[str, dict],
+          dispatcher: Dispatcher | None, progress: Progress) -> dict[str, Rang]:
+    """Ring every job (:func:`watcher.refresh.alerts.ring_jobs`); with channels, say so first (the
+    watcher may abandon the refresh there, before anything is sent)."""
+    if progress and dispatcher is not None and dispatcher.channels:
+        progress(f"{path.name}: alerts")
+    return ring_jobs(path, outcomes, records, old, dispatcher)
+
+
+def _with_alert(record: dict, rang: Rang | None) -> dict:
+    """A job's entry of tocsin's record with the alert record ``rang`` keeps (a job not rung keeps its
+    own: a disabled job)."""
+    if rang is None:
+        return record
+    out = {k: v for k, v in record.items() if k != RECORD_KEY}
+    if rang.record is not None:
+        out[RECORD_KEY] = rang.record
+    return out
+
+
+def _write(path: Path, pkg: Any, sheets: list[Any], state: dict, remove: Any,
+           progress: Progress) -> tuple[str, str]:
+    """The one write of a refresh: ("refreshed", "") or (status, message) of what went wrong."""
     if progress:
         progress(f"{path.name}: writing", final=True)   # the last point where it may be abandoned
     try:
         package.write(path, sheets, state=state, remove=remove, expect=pkg.fingerprint)
     except ConcurrentEditError as exc:
-        return done("conflict", message=str(exc))
+        return "conflict", str(exc)
     except (ValueError, OSError) as exc:
-        return done("failed", tuple(job_report(o, new) for o in outcomes), describe(exc))
-    msg = "; ".join(e.message for e in table.errors if not e.job)
-    return done("refreshed", tuple(job_report(o, new) for o in outcomes), msg)
+        return "failed", describe(exc)
+    return "refreshed", ""

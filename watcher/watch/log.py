@@ -8,8 +8,13 @@ to read::
     {"time": "2026-05-09T10:11:12+02:00", "event": "refresh", "workbook": "/share/ferry.xlsx",
      "status": "refreshed", "duration_s": 0.84, "message": "", "jobs": [{"name": "crowded", ...}]}
 
-Other events: "start" (what is watched and how), "waiting" (owner file present), "resumed", "rejected"
-(incomplete package), "stop". The file is opened for appending and flushed after every line.
+Each job's entry carries the report's ``warnings``, ``future`` and ``alert`` (DESIGN.md §8, §13). An alert
+that rang gives an "alert" event, a delivery that failed an "alert-failed" event (both also on stderr,
+whatever the refresh's status: a retry of an unchanged workbook's alert is news).
+
+Other events: "start" (what is watched and how), "alerts" (where alerts go), "waiting" (owner file
+present), "resumed", "rejected" (incomplete package), "stop". The file is opened for appending and flushed
+after every line.
 """
 from __future__ import annotations
 
@@ -116,7 +121,9 @@ class WatchLog:
             "message": outcome.message,
             "jobs": [
                 {"name": j.name, "status": j.status, "message": j.message,
-                 "next_forecast": j.next_forecast, "best_method": j.best_method}
+                 "next_forecast": j.next_forecast, "best_method": j.best_method,
+                 "next_period": j.next_period, "warnings": list(j.warnings), "future": list(j.future),
+                 "alert": j.alert}
                 for j in jobs
             ],
         }
@@ -127,3 +134,20 @@ class WatchLog:
             quiet = str(outcome.path) in self._told_nojobs
             self._told_nojobs.add(str(outcome.path))
         self.event("refresh", text, on_stream=not quiet, **fields)
+        for job in jobs:
+            self._alert(outcome, job)
+
+    def _alert(self, outcome: Outcome, job: Any) -> None:
+        """An "alert" event for an alert that went out, an "alert-failed" event per failed delivery."""
+        alert = job.alert if isinstance(job.alert, dict) else None
+        if not alert:
+            return
+        fields = {"workbook": str(outcome.path), "job": job.name, "state": alert.get("rang"),
+                  "method": alert.get("method"), "period": alert.get("period")}
+        if alert.get("rang") and alert.get("delivered"):
+            self.event("alert", f"alert      {outcome.path}  job '{job.name}' {alert['rang']} "
+                                f"({alert.get('method')}, {alert.get('period')}): sent to "
+                                f"{', '.join(alert['delivered'])}", channels=alert["delivered"], **fields)
+        for failure in alert.get("failures") or ():
+            self.event("alert-failed", f"alert failed  {outcome.path}  job '{job.name}': {failure}; tried "
+                                       "again at the next refresh", message=failure, **fields)

@@ -46,6 +46,10 @@ class JobOutcome:
     message: str = ""
     next_forecast: Any = None
     best_method: Any = None
+    next_period: Any = None
+    warnings: tuple[str, ...] = ()
+    future: tuple[Any, ...] = ()
+    alert: Any = None  # what the job's alert did in this refresh (the report's ``alert``)
 
 
 @dataclass(frozen=True)
@@ -73,6 +77,10 @@ class Outcome:
                 message=str(getattr(job, "message", "") or ""),
                 next_forecast=getattr(job, "next_forecast", None),
                 best_method=getattr(job, "best_method", None),
+                next_period=getattr(job, "next_period", None),
+                warnings=tuple(getattr(job, "warnings", ()) or ()),
+                future=tuple(getattr(job, "future", ()) or ()),
+                alert=getattr(job, "alert", None),
             )
             for job in (getattr(report, "jobs", ()) or ())
         )
