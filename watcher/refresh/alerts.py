@@ -32,7 +32,8 @@ RECORD_KEY = "alert"
 @dataclass(frozen=True)
 class Rang:
     """One job's alert in one refresh: the record to keep (None: none), whether it differs from the
-    stored one, and the report's ``alert`` entry (None for a job whose alerts are off and unrecorded)."""
+    stored one, and the report's ``alert`` entry (None for a job whose alerts are off, and for a row of
+    the job table that did not validate and has no record)."""
 
     record: dict[str, Any] | None
     changed: bool
@@ -96,5 +97,6 @@ def ring_jobs(path: Path, outcomes: Sequence[JobOutcome], records: Mapping[str, 
         rung = ring_job(stored, workbook=workbook, job=o.name, setting=setting, best_method=best,
                         future=future, cutoff=o.job.cutoff if o.job is not None else None,
                         verdict=str(rec.get("verdict") or ""), dispatcher=dispatcher)
-        out[o.name] = Rang(rung.record, rung.changed, _entry(setting, best, rung))
+        entry = _entry(setting, best, rung) if o.job is not None or rung.record is not None else None
+        out[o.name] = Rang(rung.record, rung.changed, entry)
     return out
