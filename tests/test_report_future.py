@@ -74,7 +74,8 @@ def test_without_dates_periods_are_numbered_and_a_01_best_method_states_no_chanc
     assert job["next_probability"] is None  # never the 0 or 1 of a naive forecast
     code, out, err = run_cli(capsys, "refresh", str(path))
     assert code == 0, err
-    assert "pump alarm: unchanged; next period row 41: no event forecast (best by Brier: rolling naive)" in out
+    assert ("pump alarm: unchanged; next period row 41: no event forecast (best by Brier: rolling naive)"
+            in out)
     assert "chance" not in out
 
 
