@@ -1,5 +1,6 @@
-"""The alert examples of docs/alerts.md work: the chat script, run as the ``--notify`` command, posts the
-alert to a webhook (a small HTTP server on loopback, Python's ``http.server``)."""
+"""The alert examples of the README's section "Alerts" work: the chat script it points to
+(docs/alert-to-chat.py), run as the ``--notify`` command, posts the alert to a webhook (a small HTTP
+server on loopback, Python's ``http.server``); the section names every option and JSON field."""
 from __future__ import annotations
 
 import argparse
@@ -18,11 +19,15 @@ from watcher.alert import add_alert_arguments, dispatcher_from_args
 from watcher.alert.ring import ring_job
 from watcher.refresh.layout import CAUTION
 
-DOC = Path(__file__).resolve().parents[1] / "docs" / "alerts.md"
+ROOT = Path(__file__).resolve().parents[1]
+CHAT_SCRIPT = ROOT / "docs" / "alert-to-chat.py"
 
 
-def doc_block(language: str) -> list[str]:
-    return re.findall(rf"```{language}\n(.*?)```", DOC.read_text(encoding="utf-8"), flags=re.S)
+def readme_section(title: str) -> str:
+    """The README's section ``## title``, up to the next section of the same level."""
+    text = ROOT.joinpath("README.md").read_text(encoding="utf-8")
+    (section,) = re.findall(rf"^## {re.escape(title)}\n(.*?)(?=^## |\Z)", text, flags=re.S | re.M)
+    return section
 
 
 @pytest.fixture
@@ -51,8 +56,8 @@ def webhook():
 
 @pytest.mark.skipif(os.name != "posix", reason="the script is a POSIX executable")
 def test_the_chat_script_of_the_docs_posts_the_alert_and_fails_loudly(tmp_path, webhook, monkeypatch):
-    (code,) = doc_block("python")
-    path = script(tmp_path / "alert-to-chat.py", code)
+    assert "docs/alert-to-chat.py" in readme_section("Alerts") and os.access(CHAT_SCRIPT, os.X_OK)
+    path = script(tmp_path / "alert-to-chat.py", CHAT_SCRIPT.read_text(encoding="utf-8"))
     url, posts = webhook
     args = add_alert_arguments(argparse.ArgumentParser()).parse_args(["--notify", shlex.quote(str(path))])
     disp = dispatcher_from_args(args, environ={})
@@ -77,9 +82,9 @@ def test_the_chat_script_of_the_docs_posts_the_alert_and_fails_loudly(tmp_path, 
                               "code 1: chat webhook failed: HTTP Error 500")
 
 
-def test_the_docs_name_every_alert_option_and_json_field():
+def test_the_readme_names_every_alert_option_and_json_field():
     from watcher.alert.message import Alert
-    text = DOC.read_text(encoding="utf-8")
+    text = readme_section("Alerts")
     parser = add_alert_arguments(argparse.ArgumentParser())
     for action in parser._actions:
         for option in action.option_strings:
