@@ -38,9 +38,9 @@ def _alert_text(alert: dict[str, Any] | None) -> str | None:
     """The job's alert in this refresh, on one line (None when nothing rang and nothing failed)."""
     if not alert or not (alert.get("rang") or alert.get("failures")):
         return None
-    sent = ", ".join(alert.get("delivered") or ()) or "no channel"
+    sent = ", ".join(alert.get("delivered") or ())
     text = (f"alert {alert.get('rang') or 'due'} ({alert.get('method')}, {alert.get('period')}): "
-            f"sent to {sent}")
+            + (f"sent to {sent}" if sent else "not sent"))
     if alert.get("failures"):
         text += f"; {len(alert['failures'])} failed (tried again at the next refresh)"
     return text
