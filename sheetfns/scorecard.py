@@ -64,6 +64,12 @@ METHOD_LABELS: dict[str, str] = {
 # naive forecast is not, so those report only their 0/1 forecast, never a chance.
 PROBABILITY_METHODS = frozenset({"majority", "majority_roll", "logistic", "value_model", "markov"})
 
+# What a probability method's probability is called where it is shown: a majority *vote* is never a
+# chance, its share is.
+PROBABILITY_LABELS: dict[str, str] = {"majority": "majority share", "majority_roll": "rolling share",
+                                      "markov": "two-state chain", "logistic": "logistic",
+                                      "value_model": "value model"}
+
 # The models: each is compared with the best of the other (benchmark) methods by McNemar and
 # Diebold-Mariano on the sheet.
 MODEL_METHODS = ("markov", "logistic", "value_model")
@@ -344,6 +350,18 @@ def _prefixed(label: str, notes: Any) -> list[str]:
     return [n if n.startswith(label) else f"{label}: {n}" for n in notes]
 
 
+def _merge_notes(notes: list[str], more: list[str]) -> None:
+    """Add the value model's notes; one that says what a logistic note says (the shared design, the
+    estimation sample) is listed once, for both models."""
+    both, head = "logistic model and value model: ", "logistic model: "
+    for note in more:
+        text = note[len("value model: "):]
+        if head + text in notes:
+            notes[notes.index(head + text)] = both + text
+        else:
+            notes.append(note)
+
+
 def run_methods(events: np.ndarray, *, train_size: int, settings: Settings, dates: Any = None,
                 values: np.ndarray | None = None, predictors: dict[str, np.ndarray] | None = None,
                 known_ahead: dict[str, np.ndarray] | None = None, criterion: Any = None,
@@ -404,7 +422,7 @@ def run_methods(events: np.ndarray, *, train_size: int, settings: Settings, date
         harmonics=settings.harmonics, weekday=settings.weekday, refit=settings.refit,
         min_run=min_run), out.notes)
     if vm is not None:
-        out.notes.extend(_prefixed("value model", vm.notes))
+        _merge_notes(out.notes, _prefixed("value model", vm.notes))
         if vm.applies:
             out.value_model = vm
             add("value_model", vm.prob)

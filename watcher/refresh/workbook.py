@@ -25,7 +25,7 @@ from collections.abc import Callable, Collection
 from pathlib import Path
 from typing import Any
 
-from watcher.refresh import layout
+from watcher.refresh import forecast_sheet, layout
 from watcher.refresh.compute import JobOutcome, compute_job, digest, event_text, summary
 from watcher.refresh.jobs import TABLE_SHEET, JobTable, read_job_table
 from watcher.refresh.reader import Book
@@ -60,8 +60,8 @@ def _sheets_for(outcome: JobOutcome, refreshed_at: dt.datetime) -> list[Any]:
         return []
     if outcome.error is not None:
         return [layout.failed_sheet(ctx, outcome.error)]
-    sheets = [layout.forecast_sheet(ctx, outcome.evaluation, dates=data.dates, values=outcome.values,
-                                    events=outcome.events)]
+    sheets = [forecast_sheet.forecast_sheet(ctx, outcome.evaluation, dates=data.dates,
+                                            values=outcome.values, events=outcome.events)]
     if outcome.profile is not None:
         sheets.append(layout.profile_sheet(ctx, outcome.profile, outcome.trend, outcome.evaluation))
     return sheets
