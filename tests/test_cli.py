@@ -239,6 +239,26 @@ def test_json_next_forecast_is_the_best_methods(tmp_path, capsys):
     assert job["next_probability"] == core.ev.headline()[core.ev.best][1]
 
 
+def test_a_0_1_best_method_is_never_reported_as_a_chance(tmp_path, capsys):
+    """An invented alarm that sounds every third period: the seasonal naive forecast (season 3) is
+    perfect and named best, and it is a 0/1 forecast -- the report and the command give no
+    probability for it (DESIGN.md §8)."""
+    rows = [["Alarm"]] + [[1 if i % 3 == 0 else 0] for i in range(180)]
+    job = {"job": "every third", "data_sheet": "Log", "value_column": "Alarm", "event": "=1", "season": 3}
+    path = write_book(tmp_path / "s.xlsx", {"Log": rows, "tocsin": job_table(job)})
+    code, out, err = run_cli(capsys, "refresh", "--json", str(path))
+    assert code == 0, err
+    rep = json.loads(out)[0]["jobs"][0]
+    core = core_reference(path, "every third")
+    assert core.ev.best == "seasonal_roll" and core.ev.scorecard["seasonal_roll"]["brier"] == 0.0
+    assert rep["best_method"] == "rolling seasonal naive" and rep["next_period"] == "row 181"
+    assert rep["next_probability"] is None
+    code, out, err = run_cli(capsys, "refresh", "--force", str(path))
+    assert code == 0, err
+    line = out.splitlines()[1]
+    assert line == "  every third: ok; next period row 181 (best: rolling seasonal naive)", line
+
+
 # ------------------------------------------------------------------------------------------- check
 
 def test_check_prints_the_scorecard_and_writes_nothing(tmp_path, capsys):

@@ -26,9 +26,13 @@ def refresh_text(rep: Any) -> str:
         if j.status == "failed":
             lines.append(f"  {_shown(j.name)}: FAILED: {_shown(j.message)}")
             continue
-        nxt = (f"next period {j.next_period}: {_pct(j.next_forecast)} chance of the event"
-               if j.next_period else "no future period in the data")
-        lines.append(f"  {_shown(j.name)}: {j.status}; {nxt} (best by Brier: {j.best_method or '-'})")
+        if not j.next_period:
+            nxt = "no future period in the data"
+        elif j.next_forecast is None:   # no best method, or a 0/1 one: no chance to state
+            nxt = f"next period {j.next_period}"
+        else:
+            nxt = f"next period {j.next_period}: {_pct(j.next_forecast)} chance of the event"
+        lines.append(f"  {_shown(j.name)}: {j.status}; {nxt} (best: {j.best_method or 'none named'})")
     return "\n".join(lines)
 
 
@@ -128,6 +132,7 @@ def check_text(result: Any) -> str:
                      f"validation, {ev.n - ev.last_observed - 1} future rows)")
         lines.append(scorecard_text(ev))
         lines.append(ev.verdict)
+        lines += [f"warning: {w}" for w in ev.warnings]
     status = "ok" if result.ok else "problems found"
     lines.append("")
     lines.append(f"{name}: {status}")

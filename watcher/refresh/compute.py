@@ -25,6 +25,7 @@ from sheetfns import profile
 from sheetfns.events import flag
 from sheetfns.scorecard import (
     METHOD_LABELS,
+    PROBABILITY_METHODS,
     Settings,
     evaluate,
     model_values,
@@ -149,7 +150,7 @@ def summary(o: JobOutcome) -> dict[str, Any]:
         d = o.data.dates
         out["next_period"] = (str(d[ev.last_observed + 1].astype("datetime64[D]")) if d is not None
                               else f"row {ev.last_observed + 2}")
-        if ev.best is not None:
+        if ev.best in PROBABILITY_METHODS:   # a 0/1 method's forecast is never reported as a chance
             p = ev.headline()[ev.best][1]
             out["next_probability"] = None if math.isnan(p) else p
     return out
