@@ -103,7 +103,7 @@ def test_a_full_tie_marks_no_best_value():
     import datetime as dt
 
     from watcher.cli import tables as report
-    from watcher.refresh import layout
+    from watcher.refresh import forecast_sheet, layout
     from watcher.xlsx.spec import Table
 
     ev = evaluate(np.zeros(300), train_size=200)
@@ -112,7 +112,7 @@ def test_a_full_tie_marks_no_best_value():
     ctx = layout.SheetContext(job="j", sheet="j forecast", profile_sheet="j profile", data_sheet="D",
                               value_name="v", event_text="v =1", horizon=1,
                               refreshed_at=dt.datetime(2026, 1, 1))
-    spec = layout.forecast_sheet(ctx, ev, dates=None, values=np.zeros(300), events=np.zeros(300))
+    spec = forecast_sheet.forecast_sheet(ctx, ev, dates=None, values=np.zeros(300), events=np.zeros(300))
     score_tables = [b for b in spec.blocks if isinstance(b, Table) and b.col == 0 and b.width > 3]
     accuracy_table = next(t for t in score_tables if "accuracy" in t.columns[0].values)
     i = list(accuracy_table.columns[0].values).index("accuracy")
