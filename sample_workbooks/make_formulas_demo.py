@@ -11,8 +11,9 @@ or, from the sample generator, ``write_formulas_demo(outdir)`` (the .xlsx) and
 The workbook holds the same invented ferry data as ``island_ferry.xlsx`` (same seed) and, next to it,
 the spreadsheet functions that reproduce the watcher's forecast sheet of the job "second sailing"
 (event ``>=1150``, horizon 1, the default validation period): the event column, every benchmark, the
-logistic probability, the validation scores of every method, the logistic coefficients, the
-confusion table, the Brier decomposition, McNemar's test, the cost cutoff and the event rate table.
+logistic, two-state chain and value model probabilities, the validation scores of every method, the
+logistic coefficients, the confusion table, the Brier decomposition, McNemar's test, the cost cutoff
+and the event rate table.
 Every formula is a dynamic array formula (it spills in Microsoft 365 / Excel 2021 and later), written
 with its computed value cached in the file, so the numbers show before the add-in has run. A sheet
 ``xlwings.conf`` points the xlwings add-in at ``sheetfns.udf``.
@@ -58,7 +59,7 @@ ABOUT = (
     "tocsin spreadsheet functions: a demo",
     "",
     "The sheet Passengers holds invented daily passengers of an island ferry (the data of "
-    "island_ferry.xlsx). Columns E to O are formulas: the event 'passengers >= 1150' (a second "
+    "island_ferry.xlsx). Columns E to S are formulas: the event 'passengers >= 1150' (a second "
     "sailing is needed) and every forecast method; Scores and Profile score them on the validation "
     "period. They are the numbers of the watcher's sheet 'second sailing forecast' in island_ferry.xlsx.",
     "",
@@ -80,8 +81,8 @@ ABOUT = (
 ABOUT_CALC = (
     "tocsin spreadsheet functions in LibreOffice Calc: a demo",
     ABOUT[1],
-    ABOUT[2].replace("island_ferry.xlsx). Columns E to O are formulas",
-                     "island_ferry.xlsx). Columns E to O are array formulas"),
+    ABOUT[2].replace("island_ferry.xlsx). Columns E to S are formulas",
+                     "island_ferry.xlsx). Columns E to S are array formulas"),
     "",
     "To make the formulas live (LibreOffice 7.4 or later on Linux, its Python able to import tocsin):",
     "1. Install tocsin where LibreOffice's Python finds it and point TOCSIN_PYTHONPATH at it (see the "
@@ -268,6 +269,11 @@ def plan() -> Demo:
         ("logistic probability", "EVENT_LOGIT",
          lambda: (col(E), Rng(DATA_SHEET, 0, B, bottom, B), train, 1, 1, CYCLE, HARMONICS, col(A))),
         ("logistic", "EVENT_FLAG", lambda: (col(labels["logistic probability"]), ">0.5")),
+        ("two-state chain probability", "EVENT_MARKOV", lambda: (col(E), train)),
+        ("two-state chain", "EVENT_FLAG", lambda: (col(labels["two-state chain probability"]), ">0.5")),
+        ("value model probability", "EVENT_VALUE_PROB",
+         lambda: (col(B), CRITERION, OMIT, train, 1, 1, CYCLE, HARMONICS, col(A))),
+        ("value model", "EVENT_FLAG", lambda: (col(labels["value model probability"]), ">0.5")),
     ]
     E = j
     for label, name, args in layout:
@@ -280,9 +286,10 @@ def plan() -> Demo:
     # score as probabilities of 0 or 1), brier_skill against the training majority share.
     v1, v2 = top + train, top + last
     probs = {"majority vote": "majority share", "rolling majority": "rolling share",
-             "logistic": "logistic probability"}
+             "logistic": "logistic probability", "two-state chain": "two-state chain probability",
+             "value model": "value model probability"}
     methods = ["naive", "rolling naive", "seasonal naive", "rolling seasonal naive", "majority vote",
-               "rolling majority", "logistic"]
+               "rolling majority", "two-state chain", "logistic", "value model"]
     sc = "Scores"
     g.cells[(sc, 0, 0)] = (f"Validation period: rows {v1 + 1}-{v2 + 1} of sheet {DATA_SHEET} "
                            f"({dates[train]:%Y-%m-%d} to {dates[last]:%Y-%m-%d}); training rows "
@@ -295,7 +302,8 @@ def plan() -> Demo:
     r = 3 + len(g.formulas[-1].result) + 2
     ev_full = scorecard.evaluate(ev, train_size=train, settings=scorecard.Settings(
         horizon=1, season=SEASON, cycle=CYCLE, harmonics=HARMONICS, lags=1, weekday=True),
-        dates=np.array(dates, dtype="datetime64[D]"), values=passengers)
+        dates=np.array(dates, dtype="datetime64[D]"), values=passengers, criterion=CRITERION,
+        raw_values=passengers)
     best = scorecard.METHOD_LABELS[str(ev_full.comparisons["best_benchmark"])]
     g.cells[(sc, r, 0)] = "logistic coefficients (fit on the training rows)"
     g.formula(sc, r + 1, 0, "EVENT_LOGIT_COEFS", col(E), Rng(DATA_SHEET, 0, B, bottom, B), train, 1, 1,

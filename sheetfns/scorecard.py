@@ -18,13 +18,22 @@ key                label                 forecast / probability
                                          training share (the *majority share*, the reference of
                                          every Brier skill score)
 ``majority_roll``  rolling majority      expanding window, roll-forward; probability = the share
+``markov``         two-state chain       P(event | the state ``horizon`` periods back)
+                                         (:mod:`sheetfns.markov`); 0/1 = probability > cutoff
 ``logistic``       logistic              probability from the logit model; 0/1 = probability >
                                          cutoff
+``value_model``    value model           P(the number behind the rule lands on the event side)
+                                         (:mod:`sheetfns.valuemodel`); 0/1 = probability > cutoff;
+                                         only for numeric threshold rules (``criterion`` given)
 =================  ====================  ==========================================================
 
 A 0/1 forecast used as a probability gives a Brier score equal to its error rate (common practice),
 so the deterministic benchmarks stay comparable with the probability forecasts on every row of the
 scorecard.
+
+The verdict (:mod:`sheetfns._scoring.verdict`) names a best method only when it beats the majority
+share; a validation period unlike the training period, or with too few events, is flagged in it and in
+:attr:`Evaluation.warnings`.
 """
 from __future__ import annotations
 
@@ -35,7 +44,8 @@ from typing import Any
 
 import numpy as np
 
-from sheetfns import benchmarks, logistic, scores
+from sheetfns import benchmarks, logistic, markov, scores, valuemodel
+from sheetfns._scoring import verdict as _verdict
 from sheetfns.checks import last_observed
 
 METHOD_LABELS: dict[str, str] = {
@@ -45,14 +55,28 @@ METHOD_LABELS: dict[str, str] = {
     "seasonal_roll": "rolling seasonal naive",
     "majority": "majority vote",
     "majority_roll": "rolling majority",
+    "markov": "two-state chain",
     "logistic": "logistic",
+    "value_model": "value model",
 }
 
 # The methods whose forecast is a probability (DESIGN.md §8): the majority share is one, a vote or a
 # naive forecast is not, so those report only their 0/1 forecast, never a chance.
 PROBABILITY_METHODS = frozenset({"majority", "majority_roll", "logistic", "value_model", "markov"})
 
-_PREFERENCE = ("majority", "majority_roll", "naive_roll", "naive", "seasonal_roll", "seasonal", "logistic")
+# What a probability method's probability is called where it is shown: a majority *vote* is never a
+# chance, its share is.
+PROBABILITY_LABELS: dict[str, str] = {"majority": "majority share", "majority_roll": "rolling share",
+                                      "markov": "two-state chain", "logistic": "logistic",
+                                      "value_model": "value model"}
+
+# The models: each is compared with the best of the other (benchmark) methods by McNemar and
+# Diebold-Mariano on the sheet.
+MODEL_METHODS = ("markov", "logistic", "value_model")
+
+# On a Brier tie the simpler method is named: the reference first, the models last.
+_PREFERENCE = ("majority", "majority_roll", "naive_roll", "naive", "seasonal_roll", "seasonal", "markov",
+               "logistic", "value_model")
 
 # Scorecard rows: (key in the score dicts, label shown, kind) where kind picks the cell format and
 # whether a higher or a lower value is better ("hi", "lo", or "" for neither).
@@ -125,14 +149,23 @@ class Evaluation:
     last_observed: int  # index of the last observed event (rows after it are future periods)
     methods: tuple[Method, ...]
     scorecard: dict[str, dict[str, float]]  # method key -> score key -> value
-    best: str | None  # method key with the lowest validation Brier score
-    comparisons: dict[str, float]  # McNemar / Diebold-Mariano of logistic vs best benchmark etc.
+    best: str | None  # the method the verdict names (lowest Brier with positive skill), or None
+    comparisons: dict[str, float]  # McNemar / Diebold-Mariano of each model vs the best benchmark etc.
     verdict: str
     coefficients: Any  # the logistic coefficient table
     notes: tuple[str, ...] = field(default_factory=tuple)
     reliability: Any = None  # reliability table of the logistic validation probabilities
     roc: Any = None  # ROC points of the logistic validation probabilities
     horizon: int = 1
+    warnings: tuple[str, ...] = ()  # the validation period unlike the training period, too few events
+    value_model: Any = None  # the value model's ValueForecast (coefficient table, residual scale)
+    lowest: str | None = None  # the method with the lowest validation Brier score (ties: simpler)
+
+    @property
+    def residual_method(self) -> str:
+        """The method of the residual column: the best, else the majority share (the base rate the
+        verdict then says to use)."""
+        return self.best or "majority"
 
     @property
     def period(self) -> np.ndarray:
@@ -180,6 +213,19 @@ def best_mask(row: Any, better: str) -> np.ndarray:
         return np.zeros(row.shape, dtype=bool)
     target = np.max(row[finite]) if better == "hi" else np.min(row[finite])
     return finite & (row == target)
+
+
+def residual(actual: Any, m: Method) -> np.ndarray:
+    """Per row, what happened minus the method's forecast: the probability for the methods of
+    :data:`PROBABILITY_METHODS`, the 0/1 forecast for the others (a vote is not a chance). NaN where
+    either is missing.
+
+    >>> m = Method("logistic", "logistic", np.array([1.0, 0.0]), np.array([0.8, 0.3]))
+    >>> residual([1.0, 0.0], m).round(3).tolist()
+    [0.2, -0.3]
+    """
+    forecast = m.prob if m.key in PROBABILITY_METHODS else m.forecast
+    return np.asarray(actual, dtype=float) - forecast
 
 
 # ---------------------------------------------------------------------------------- modelling policy
@@ -258,10 +304,71 @@ def _cutoff(prob: np.ndarray, cutoff: float) -> np.ndarray:
     return out
 
 
+@dataclass
+class _Runs:
+    methods: list[Method]
+    coefficients: Any = None
+    notes: list[str] = field(default_factory=list)
+    value_model: Any = None
+
+
+def _numbers(x: Any) -> np.ndarray:
+    """A column as floats for the scale check (text cells are blanks, as the models read them)."""
+    try:
+        return np.asarray(x, dtype=float)
+    except (TypeError, ValueError):
+        out = np.full(len(x), np.nan)
+        for i, v in enumerate(x):
+            if isinstance(v, (int, float, np.number)) and not isinstance(v, bool):
+                out[i] = float(v)
+        return out
+
+
+def _guarded(label: str, fit: Any, notes: list[str]) -> Any:
+    """Call ``fit()``; a ValueError (the data do not allow the model) becomes the note "<label> not
+    fitted: ..." and None, numeric warnings become one note. The benchmarks are kept either way."""
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", RuntimeWarning)
+        try:
+            out = fit()
+        except ValueError as exc:
+            out = None
+            notes.append(f"{label} not fitted: {exc}")
+    numeric = [w for w in caught if issubclass(w.category, RuntimeWarning)]
+    for w in caught:
+        if not issubclass(w.category, RuntimeWarning):  # not ours to judge: pass it on
+            warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+    if numeric:
+        notes.append(f"{label}: the numerical computation warned ({numeric[0].message}"
+                     f"{f'; {len(numeric) - 1} more warnings' if len(numeric) > 1 else ''}); "
+                     f"read its probabilities with care")
+    return out
+
+
+def _prefixed(label: str, notes: Any) -> list[str]:
+    """A model's notes, each saying which model it is about."""
+    return [n if n.startswith(label) else f"{label}: {n}" for n in notes]
+
+
+def _merge_notes(notes: list[str], more: list[str]) -> None:
+    """Add the value model's notes; one that says what a logistic note says (the shared design, the
+    estimation sample) is listed once, for both models."""
+    both, head = "logistic model and value model: ", "logistic model: "
+    for note in more:
+        text = note[len("value model: "):]
+        if head + text in notes:
+            notes[notes.index(head + text)] = both + text
+        else:
+            notes.append(note)
+
+
 def run_methods(events: np.ndarray, *, train_size: int, settings: Settings, dates: Any = None,
                 values: np.ndarray | None = None, predictors: dict[str, np.ndarray] | None = None,
-                known_ahead: dict[str, np.ndarray] | None = None) -> tuple[list[Method], Any, list[str]]:
-    """Every method's forecasts for every row; returns (methods, logistic coefficients, notes)."""
+                known_ahead: dict[str, np.ndarray] | None = None, criterion: Any = None,
+                raw_values: Any = None, min_run: int = 1) -> _Runs:
+    """Every method's forecasts for every row, with the logistic coefficients, the value model and
+    the notes. ``criterion`` and ``raw_values`` (the column the events came from) switch the value
+    model on; where it does not apply its note says why and it is left out."""
     h = settings.horizon
     methods = []
     naive = benchmarks.naive(events, horizon=h, train_size=train_size)
@@ -279,38 +386,47 @@ def run_methods(events: np.ndarray, *, train_size: int, settings: Settings, date
     vote_r = benchmarks.majority_vote(events, horizon=h)
     share_r = benchmarks.majority_share(events, horizon=h)
     methods.append(Method("majority_roll", METHOD_LABELS["majority_roll"], vote_r, share_r))
-    notes: list[str] = []
-    coefficients = None
-    inputs = {"the value series": values, **{f"predictor {k!r}": v for k, v in (predictors or {}).items()},
+    out = _Runs(methods)
+
+    def add(key: str, prob: Any) -> None:
+        prob = np.asarray(prob, dtype=float)
+        methods.append(Method(key, METHOD_LABELS[key], _cutoff(prob, settings.cutoff), prob))
+
+    chain = _guarded("two-state chain", lambda: markov.forecast(
+        events, train_size=train_size, horizon=h, refit=settings.refit), out.notes)
+    if chain is not None:
+        add("markov", chain)
+    inputs = {**{f"predictor {k!r}": v for k, v in (predictors or {}).items()},
               **{f"known-ahead input {k!r}": v for k, v in (known_ahead or {}).items()}}
-    problem = model_scale_problem(inputs)
+    problem = model_scale_problem({"the value series": values, **inputs})
     if problem is not None:  # never hand overflowing data to the linear algebra
-        notes.append(f"logistic model not fitted: {problem}")
-        return methods, coefficients, notes
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always", RuntimeWarning)
-        try:
-            fc = logistic.forecast(
-                events, values=values, predictors=predictors, known_ahead=known_ahead, dates=dates,
-                train_size=train_size, horizon=h, lags=settings.lags, cycle=settings.cycle,
-                harmonics=settings.harmonics, weekday=settings.weekday, refit=settings.refit)
-        except ValueError as exc:  # the data do not allow a logistic model: say so, keep the benchmarks
-            fc = None
-            notes.append(f"logistic model not fitted: {exc}")
-    numeric = [w for w in caught if issubclass(w.category, RuntimeWarning)]
-    for w in caught:
-        if not issubclass(w.category, RuntimeWarning):  # not ours to judge: pass it on
-            warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
-    if numeric:
-        notes.append(f"logistic model: the numerical computation warned ({numeric[0].message}"
-                     f"{f'; {len(numeric) - 1} more warnings' if len(numeric) > 1 else ''}); "
-                     f"read its probabilities with care")
-    if fc is not None:
-        coefficients = fc.coefficients
-        notes.extend(fc.notes)
-        prob = np.asarray(fc.prob, dtype=float)
-        methods.append(Method("logistic", METHOD_LABELS["logistic"], _cutoff(prob, settings.cutoff), prob))
-    return methods, coefficients, notes
+        out.notes.append(f"logistic model not fitted: {problem}")
+    else:
+        fc = _guarded("logistic model", lambda: logistic.forecast(
+            events, values=values, predictors=predictors, known_ahead=known_ahead, dates=dates,
+            train_size=train_size, horizon=h, lags=settings.lags, cycle=settings.cycle,
+            harmonics=settings.harmonics, weekday=settings.weekday, refit=settings.refit), out.notes)
+        if fc is not None:
+            out.coefficients = fc.coefficients
+            out.notes.extend(_prefixed("logistic model", fc.notes))
+            add("logistic", fc.prob)
+    if criterion is None or raw_values is None:
+        return out
+    problem = model_scale_problem({"the value series": _numbers(raw_values), **inputs})
+    if problem is not None:
+        out.notes.append(f"value model not fitted: {problem}")
+        return out
+    vm = _guarded("value model", lambda: valuemodel.forecast(
+        raw_values, criterion, predictors=predictors, known_ahead=known_ahead, dates=dates,
+        train_size=train_size, horizon=h, lags=settings.lags, cycle=settings.cycle,
+        harmonics=settings.harmonics, weekday=settings.weekday, refit=settings.refit,
+        min_run=min_run), out.notes)
+    if vm is not None:
+        _merge_notes(out.notes, _prefixed("value model", vm.notes))
+        if vm.applies:
+            out.value_model = vm
+            add("value_model", vm.prob)
+    return out
 
 
 def _score(actual: np.ndarray, m: Method, reference: np.ndarray, settings: Settings) -> dict[str, float]:
@@ -327,7 +443,8 @@ def _score(actual: np.ndarray, m: Method, reference: np.ndarray, settings: Setti
 
 def evaluate(events: Any, *, train_size: int, settings: Settings | None = None, dates: Any = None,
              values: Any = None, predictors: dict[str, Any] | None = None,
-             known_ahead: dict[str, Any] | None = None) -> Evaluation:
+             known_ahead: dict[str, Any] | None = None, criterion: Any = None, raw_values: Any = None,
+             min_run: int = 1) -> Evaluation:
     """Run every method and score it on the validation rows ``train_size .. last observed``.
 
     Parameters
@@ -337,17 +454,28 @@ def evaluate(events: Any, *, train_size: int, settings: Settings | None = None, 
     train_size : int
         Rows in the training period (see :func:`sheetfns.partition.split`).
     settings : Settings
-        Horizon, season, logistic options, cutoff and costs.
+        Horizon, season, model options, cutoff and costs.
     dates, values, predictors, known_ahead
-        Passed on to :func:`sheetfns.logistic.forecast`.
+        Passed on to :func:`sheetfns.logistic.forecast` (and, but ``values``, to the value model).
+    criterion, raw_values, min_run
+        The event rule, the column it was applied to and its ``min_run``
+        (:func:`sheetfns.events.flag`): with both of the first two the value model
+        (:func:`sheetfns.valuemodel.forecast`) runs too. Without them it is left out, silently.
+
+    The best method is the one with the lowest validation Brier score (on a tie the simpler) that
+    beats the majority share; a 0/1 method that forecast one value for every validation period is
+    passed over, and none is named with fewer than 10 validation events
+    (:mod:`sheetfns._scoring.verdict`).
     """
     settings = settings or Settings()
     y = np.asarray(events, dtype=float)
     n = y.size
     last = last_observed(y)
-    methods, coefficients, notes = run_methods(
+    runs = run_methods(
         y, train_size=train_size, settings=settings, dates=dates, values=values,
-        predictors=predictors, known_ahead=known_ahead)
+        predictors=predictors, known_ahead=known_ahead, criterion=criterion, raw_values=raw_values,
+        min_run=min_run)
+    methods = runs.methods
     valid = slice(train_size, last + 1)
     actual = y[valid]
     byname = {m.key: m for m in methods}
@@ -357,18 +485,20 @@ def evaluate(events: Any, *, train_size: int, settings: Settings | None = None, 
     def usable(k: str) -> bool:
         return not math.isnan(card[k]["brier"])
 
-    # On a tie the simpler method wins: a model must beat the reference to be named best.
     ranked = sorted((k for k in card if usable(k)), key=lambda k: (card[k]["brier"], _PREFERENCE.index(k)))
-    best = ranked[0] if ranked else None
+    check = _verdict.check_periods(y[:train_size], actual)
+    constant = _constant_votes(methods, valid)
+    best, passed = _verdict.choose(ranked, {k: card[k]["brier_skill"] for k in card}, constant, check)
     comparisons: dict[str, float] = {}
     reliability = roc = None
+    bench = [k for k in ranked if k not in MODEL_METHODS]
+    if bench:
+        comparisons["best_benchmark"] = bench[0]  # type: ignore[assignment]
+        for key in MODEL_METHODS:
+            if key in byname:
+                comparisons.update(_compare(actual, byname[key], byname[bench[0]], valid, settings.horizon,
+                                            prefix=f"{key}_vs_best"))
     if "logistic" in byname:
-        bench = [k for k in ranked if k != "logistic"]
-        if bench:
-            b = byname[bench[0]]
-            lg = byname["logistic"]
-            comparisons.update(_compare(actual, lg, b, valid, settings.horizon, prefix="logistic_vs_best"))
-            comparisons["best_benchmark"] = bench[0]  # type: ignore[assignment]
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             ok = ~np.isnan(actual) & ~np.isnan(byname["logistic"].prob[valid])
@@ -378,11 +508,28 @@ def evaluate(events: Any, *, train_size: int, settings: Settings | None = None, 
     if best is not None and best != "majority":
         comparisons.update(_compare(actual, byname[best], byname["majority"], valid, settings.horizon,
                                     prefix="best_vs_share"))
-    verdict = _verdict(best, card, comparisons)
+    lowest = ranked[0] if ranked else None
+    verdict = _verdict.verdict_text(best, lowest, passed, METHOD_LABELS, card, constant, check,
+                                    comparisons.get("best_vs_share_dm_p", math.nan))
     return Evaluation(n=n, train_size=train_size, last_observed=last, methods=tuple(methods),
                       scorecard=card, best=best, comparisons=comparisons, verdict=verdict,
-                      coefficients=coefficients, notes=tuple(notes), reliability=reliability, roc=roc,
-                      horizon=settings.horizon)
+                      coefficients=runs.coefficients, notes=tuple(runs.notes), reliability=reliability,
+                      roc=roc, horizon=settings.horizon, warnings=check.warnings(),
+                      value_model=runs.value_model, lowest=lowest)
+
+
+def _constant_votes(methods: list[Method], valid: slice) -> dict[str, float]:
+    """The 0/1 methods (not of :data:`PROBABILITY_METHODS`) whose forecast was one value on every
+    scored validation row: method key -> that value."""
+    out = {}
+    for m in methods:
+        if m.key in PROBABILITY_METHODS:
+            continue
+        f = m.forecast[valid]
+        f = f[~np.isnan(f)]
+        if f.size and (f == f[0]).all():
+            out[m.key] = float(f[0])
+    return out
 
 
 def _slice(m: Method, sl: slice) -> Method:
@@ -409,25 +556,3 @@ def _compare(actual: np.ndarray, a: Method, b: Method, valid: slice, horizon: in
         except ValueError:
             out[f"{prefix}_mcnemar"] = out[f"{prefix}_mcnemar_p"] = math.nan
     return out
-
-
-def _verdict(best: str | None, card: dict[str, dict[str, float]], comparisons: dict[str, float]) -> str:
-    """The plain-words verdict of the header block."""
-    if best is None:
-        return "No method could be scored: the validation period holds no usable rows."
-    label = METHOD_LABELS[best]
-    brier = card[best]["brier"]
-    if best == "majority":
-        return (f"Best on the validation period: {label} (Brier {brier:.3f}). No method beat the "
-                f"majority share, so the share itself is the forecast to use.")
-    bss = card[best]["brier_skill"]
-    p = comparisons.get("best_vs_share_dm_p", math.nan)
-    if math.isnan(p):
-        sig = "the significance of the difference could not be tested"
-    elif p < 0.05:
-        sig = f"the difference is significant at 5% (Diebold-Mariano p = {p:.3f})"
-    else:
-        sig = f"the difference is not significant at 5% (Diebold-Mariano p = {p:.3f})"
-    skill = "n/a" if math.isnan(bss) else f"{bss:+.1%}"
-    return (f"Best on the validation period: {label} (Brier {brier:.3f}, skill {skill} against the "
-            f"majority share); {sig}.")

@@ -1,6 +1,6 @@
 """Verification scores for event forecasts: confusion counts and every categorical score,
 probability scores and the Murphy decomposition, ROC points, significance tests (McNemar,
-Diebold-Mariano) with Wilson intervals, and the cost-based cutoff.
+Diebold-Mariano, two proportions) with Wilson intervals, and the cost-based cutoff.
 
 Conventions (one for the module)
 --------------------------------
@@ -42,12 +42,12 @@ from sheetfns._scoring.probabilistic import (
     roc_points,
 )
 from sheetfns._scoring.registry import SCORE_INFO, SCORE_KEYS, ScoreInfo
-from sheetfns._scoring.significance import diebold_mariano, mcnemar, wilson, wilson_intervals
+from sheetfns._scoring.significance import diebold_mariano, mcnemar, two_proportion, wilson, wilson_intervals
 
 __all__ = [
     "CATEGORICAL_KEYS", "Confusion", "LOG_LOSS_EPS", "PROBABILISTIC_KEYS", "RocPoints",
     "SCORE_INFO", "SCORE_KEYS", "ScoreInfo", "UndefinedScoreWarning",
     "brier_decomposition", "categorical", "confusion", "cost_cutoff", "diebold_mariano",
-    "expected_cost", "from_counts", "mcnemar", "probabilistic", "roc_points", "wilson",
-    "wilson_intervals",
+    "expected_cost", "from_counts", "mcnemar", "probabilistic", "roc_points", "two_proportion",
+    "wilson", "wilson_intervals",
 ]

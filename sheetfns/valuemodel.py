@@ -133,7 +133,7 @@ def _event_side(crit: Criterion) -> tuple[float, float, bool]:
     strict = crit.op in (">", "<")
     if crit.kind == "compare":
         return (1.0 if crit.op in (">", ">=") else -1.0), thr, strict
-    return (1.0, thr, strict) if crit.direction == "rise" else (-1.0, -thr, strict)
+    return (1.0, thr, strict) if crit.direction == "rise" else (-1.0, 0.0 - thr, strict)  # never -0
 
 
 def _not_applicable(crit: Criterion, min_run: int) -> str | None:
@@ -256,15 +256,15 @@ def forecast(values: Any, criterion: str | Criterion, *, predictors: Mapping[str
     every = parse_refit(refit)
     x = _numeric(values)
     n = x.size
+    seen = x[~np.isnan(x)]
+    if seen.size and np.isin(seen, (0.0, 1.0)).all():   # the first reason: no rule would make it apply
+        return _absent(n, "the column holds only 0 and 1 (or TRUE/FALSE): an event series, not a "
+                          "number to forecast (the logistic model and the chain use it)")
     why = _not_applicable(crit, run_length)
     if why is not None:
         return _absent(n, why)
     if n < 2:
         raise InputError(f"`values` must have at least 2 rows to forecast from its past; got {n}")
-    seen = x[~np.isnan(x)]
-    if seen.size and np.isin(seen, (0.0, 1.0)).all():
-        return _absent(n, "the column holds only 0 and 1 (or TRUE/FALSE): an event series, not a "
-                          "number to forecast (the logistic model and the chain use it)")
     q, what = quantity(x, crit)
     last = last_observed(q)
     if last < 0:

@@ -215,7 +215,9 @@ def test_json_report(tmp_path, capsys):
     good = jobs["gdp fall"]
     core = core_reference(path, "gdp fall")
     assert good["status"] == "ok" and good["sheet"] == "gdp fall forecast"
-    assert good["best_method"] == METHOD_LABELS[core.ev.best]
+    # 2 falls of real GDP in the 38 validation quarters: too few to rank, so no method is named
+    assert core.ev.best is None and good["best_method"] is None
+    assert good["message"] == core.ev.verdict and good["message"].startswith("Too few events to rank")
     assert good["next_period"] is None  # the data end with an observed quarter: no future row
     assert jobs["broken"]["status"] == "failed" and "`horizon`" in jobs["broken"]["message"]
     assert second["status"] == "failed" and second["ok"] is False and second["jobs"] == []
@@ -223,15 +225,38 @@ def test_json_report(tmp_path, capsys):
 
 
 def test_json_next_forecast_is_the_best_methods(tmp_path, capsys):
-    rows = macrodata_rows(101)
+    rows = macrodata_rows()
     rows.append([rows[-1][0].replace(year=rows[-1][0].year + 1), None, None, None])  # a future row
-    path = write_book(tmp_path / "f.xlsx", {"Macro": rows, "tocsin": job_table(GDP_JOB)})
+    rising = {**GDP_JOB, "job": "unemployment up", "value_column": "Unemployment", "event": "rise"}
+    path = write_book(tmp_path / "f.xlsx", {"Macro": rows, "tocsin": job_table(rising)})
     code, out, err = run_cli(capsys, "refresh", "--json", str(path))
     assert code == 0, err
     job = json.loads(out)[0]["jobs"][0]
-    core = core_reference(path, "gdp fall")
+    core = core_reference(path, "unemployment up")
+    assert core.ev.best is not None
+    assert job["best_method"] == METHOD_LABELS[core.ev.best]
     assert job["next_period"] == str(core.data.dates[core.ev.last_observed + 1].astype("datetime64[D]"))
     assert job["next_probability"] == core.ev.headline()[core.ev.best][1]
+
+
+def test_a_0_1_best_method_is_never_reported_as_a_chance(tmp_path, capsys):
+    """An invented alarm that sounds every third period: the seasonal naive forecast (season 3) is
+    perfect and named best, and it is a 0/1 forecast -- the report and the command give no
+    probability for it (DESIGN.md §8)."""
+    rows = [["Alarm"]] + [[1 if i % 3 == 0 else 0] for i in range(180)]
+    job = {"job": "every third", "data_sheet": "Log", "value_column": "Alarm", "event": "=1", "season": 3}
+    path = write_book(tmp_path / "s.xlsx", {"Log": rows, "tocsin": job_table(job)})
+    code, out, err = run_cli(capsys, "refresh", "--json", str(path))
+    assert code == 0, err
+    rep = json.loads(out)[0]["jobs"][0]
+    core = core_reference(path, "every third")
+    assert core.ev.best == "seasonal_roll" and core.ev.scorecard["seasonal_roll"]["brier"] == 0.0
+    assert rep["best_method"] == "rolling seasonal naive" and rep["next_period"] == "row 181"
+    assert rep["next_probability"] is None
+    code, out, err = run_cli(capsys, "refresh", "--force", str(path))
+    assert code == 0, err
+    line = out.splitlines()[1]
+    assert line == "  every third: ok; next period row 181 (best: rolling seasonal naive)", line
 
 
 # ------------------------------------------------------------------------------------------- check
@@ -254,8 +279,8 @@ def test_check_prints_the_scorecard_and_writes_nothing(tmp_path, capsys):
         assert label in out
     assert core.ev.verdict in out
     brier = [line for line in out.splitlines() if line.startswith("Brier score")][0]
-    best = core.ev.scorecard[core.ev.best]["brier"]
-    assert f"{best:.3f}*" in brier
+    lowest = core.ev.scorecard[core.ev.lowest]["brier"]      # the star marks the row's best value
+    assert f"{lowest:.3f}*" in brier
     assert out.rstrip().endswith("c.xlsx: ok")
 
 

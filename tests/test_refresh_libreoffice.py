@@ -20,10 +20,10 @@ import numpy as np
 import pytest
 from test_refresh import GDP_JOB, SAMPLE_NAMES, SAMPLES, core_reference, macro_book
 
-from sheetfns.scorecard import SCORE_ROWS
+from sheetfns.scorecard import PROBABILITY_LABELS, PROBABILITY_METHODS, SCORE_ROWS
 from watcher import cli
 from watcher.refresh import jobs
-from watcher.refresh.layout import TABLE_COL
+from watcher.refresh.forecast_sheet import table_col
 from watcher.refresh.reader import Book
 from watcher.refresh.texts import CAUTION
 
@@ -111,12 +111,23 @@ def test_forecast_sheet_as_libreoffice_shows_it(exported, name):
         assert at(rows, row_of(rows, "data through"), 1) == days[ev.last_observed]
         assert joined(rows, "verdict") == ev.verdict
         assert joined(rows, "caution") == CAUTION
-        # headline probabilities as percents
-        r = row_of(rows, "method")
-        head = ev.headline()
-        for i, m in enumerate(ev.methods):
-            assert at(rows, r + 1 + i, 0) == m.label
-            assert percent_ok(at(rows, r + 1 + i, 2), head[m.key][1]), (m.label, at(rows, r + 1 + i, 2))
+        # the periods ahead: each method's 0/1 forecast, then the probabilities as percents
+        future = ev.future()
+        r = row_of(rows, "period")
+        assert rows[r][:2 + len(ev.methods)] == ["period", "made at", *(m.label for m in ev.methods)]
+        chance = [m for m in ev.methods if m.key in PROBABILITY_METHODS]
+        r2 = r + len(future) + 3
+        assert rows[r2][:2 + len(chance)] == ["period", "made at",
+                                              *(PROBABILITY_LABELS[m.key] for m in chance)]
+        for i, f in enumerate(future):
+            assert at(rows, r + 1 + i, 0) == at(rows, r2 + 1 + i, 0) == days[f.row]
+            assert at(rows, r + 1 + i, 1) == days[f.origin]
+            for j, m in enumerate(ev.methods):
+                want = str(f.forecasts[m.key][0]) if m.key in f.forecasts else ""
+                assert at(rows, r + 1 + i, 2 + j) == want, (m.label, f.row)
+            for j, m in enumerate(chance):
+                p = f.forecasts[m.key][1] if m.key in f.forecasts else np.nan
+                assert percent_ok(at(rows, r2 + 1 + i, 2 + j), p), (m.label, at(rows, r2 + 1 + i, 2 + j))
         # scorecard: percents for the rates, three decimals for the scores
         r = row_of(rows, "measure")
         for i, (key, label, fmt, _b) in enumerate(SCORE_ROWS):
@@ -134,16 +145,27 @@ def test_forecast_sheet_as_libreoffice_shows_it(exported, name):
                     assert re.fullmatch(r"-?\d+\.\d{3}", shown) and abs(float(shown) - v) <= 5e-4 + 1e-9
         # the row table: dates as text, events 0/1, periods, the logistic probability as a percent
         n = ev.n
+        TABLE_COL = table_col(ev)
         assert [at(rows, 1 + i, TABLE_COL) for i in range(n)] == days
         assert at(rows, n + 1, TABLE_COL) == ""
         ev_text = ["" if np.isnan(e) else str(int(e)) for e in core.events]
         assert [at(rows, 1 + i, TABLE_COL + 2) for i in range(n)] == ev_text
         assert [at(rows, 1 + i, TABLE_COL + 3) for i in range(n)] == ev.period.tolist()
         col = TABLE_COL + 4 + len(ev.methods)
-        assert at(rows, 0, col) == "logistic probability"
-        prob = ev.method("logistic").prob
-        bad = [i for i in range(n) if not percent_ok(at(rows, 1 + i, col), prob[i])]
-        assert not bad, [(i, at(rows, 1 + i, col), prob[i]) for i in bad[:5]]
+        models = [m for m in ev.methods if m.key in ("markov", "logistic", "value_model")]
+        for j, m in enumerate(models):
+            assert at(rows, 0, col + j) == f"{PROBABILITY_LABELS[m.key]} probability"
+            bad = [i for i in range(n) if not percent_ok(at(rows, 1 + i, col + j), m.prob[i])]
+            assert not bad, [(i, at(rows, 1 + i, col + j), m.prob[i]) for i in bad[:5]]
+        # the residual of the best method (or of the base rate) with three decimals, or -1/0/1
+        res = at(rows, 0, col + len(models))
+        assert res.startswith("residual (")
+        m = ev.method(ev.residual_method)
+        r = core.events - (m.prob if m.key in PROBABILITY_METHODS else m.forecast)
+        shown = [at(rows, 1 + i, col + len(models)) for i in range(n)]
+        bad = [i for i in range(n) if (shown[i] == "") != np.isnan(r[i])
+               or (shown[i] and abs(float(shown[i]) - r[i]) > 5e-4 + 1e-9)]
+        assert not bad, [(i, shown[i], r[i]) for i in bad[:5]]
 
 
 def test_profile_sheet_rates_as_percents(exported):

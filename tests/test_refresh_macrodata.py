@@ -26,7 +26,6 @@ import pytest
 import sklearn.metrics as sklearn_metrics
 from test_refresh import (
     GDP_JOB,
-    TABLE_COL,
     cell,
     find_row,
     floats,
@@ -68,6 +67,7 @@ def sheets(macro):
 
 def read_sheet(grid):
     """The row table and the scorecard of a forecast sheet, as read back."""
+    TABLE_COL = grid[0].index("date")   # the row table's header starts row 1 after the left panel
     header = []
     while cell(grid, 0, TABLE_COL + len(header)) is not None:
         header.append(cell(grid, 0, TABLE_COL + len(header)))
@@ -112,8 +112,8 @@ def test_event_count_equals_pandas_count_of_declines(macro, sheets):
 def _probabilities(table, label):
     """A method's validation probabilities, from the row table alone: the 0/1 forecast itself for the
     naive methods and the votes, rebuilt with pandas for the majority shares (the training share for
-    the fixed origin; the expanding share of the rows before t for the rolling one), the logistic
-    probability column for the model."""
+    the fixed origin; the expanding share of the rows before t for the rolling one), the probability
+    column of each model (two-state chain, logistic, value model)."""
     key = LABEL_KEY[label]
     ev = pd.Series(table["event"])
     train = table["period"] == "training"
@@ -121,8 +121,8 @@ def _probabilities(table, label):
         return np.full(len(ev), ev[train].mean())
     if key == "majority_roll":
         return ev.expanding().mean().shift(1).to_numpy()
-    if key == "logistic":
-        return table["logistic probability"]
+    if key in ("markov", "logistic", "value_model"):
+        return table[f"{label} probability"]
     return table[label]
 
 

@@ -159,3 +159,12 @@ def test_expected_cost_mapping_missing_counts():
 
 def test_expected_cost_negative_cost():
     _raises(lambda: scores.expected_cost((1, 2, 3, 4), 1, -5), "`cost_miss`", "-5")
+
+
+# --- two_proportion ---------------------------------------------------------------------------------
+def test_two_proportion_more_events_than_periods():
+    _raises(lambda: scores.two_proportion(12, 10, 1, 5), "`events_a`", "12")
+
+
+def test_two_proportion_negative_count():
+    _raises(lambda: scores.two_proportion(1, 10, -1, 5), "`events_b`", "-1")

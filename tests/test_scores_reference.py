@@ -328,6 +328,34 @@ def test_wilson_intervals_of_finley_scores_against_statsmodels():
         assert low <= point[key] <= high, key
 
 
+# --- two proportions ------------------------------------------------------------------------------
+# Reference: statsmodels.stats.proportion.proportions_ztest (pooled variance, two-sided), the score
+# test of Agresti (2013), Categorical Data Analysis, 3rd ed., section 3.1.2.
+@pytest.mark.parametrize("xa,na,xb,nb", [(30, 100, 15, 100), (510, 2338, 8, 584), (1, 40, 9, 60),
+                                         (7, 7, 3, 11), (0, 50, 4, 10), (233, 1000, 230, 1000)])
+def test_two_proportion_against_statsmodels(xa, na, xb, nb):
+    from statsmodels.stats.proportion import proportions_ztest
+
+    z, p = proportions_ztest([xa, xb], [na, nb])
+    assert scores.two_proportion(xa, na, xb, nb) == pytest.approx((z, p), rel=1e-12, abs=1e-300)
+
+
+def test_two_proportion_square_is_pearson_chi_square_of_the_table():
+    from scipy.stats import chi2_contingency
+
+    table = [[30, 70], [15, 85]]
+    chi2, p, *_ = chi2_contingency(table, correction=False)
+    z, pz = scores.two_proportion(30, 100, 15, 100)
+    assert (z * z, pz) == pytest.approx((chi2, p), rel=1e-12)
+
+
+def test_two_proportion_without_variation_is_undefined():
+    for args in ((0, 50, 0, 30), (50, 50, 30, 30), (3, 10, 0, 0)):
+        with pytest.warns(scores.UndefinedScoreWarning, match="two_proportion"):
+            z, p = scores.two_proportion(*args)
+        assert math.isnan(z) and math.isnan(p)
+
+
 # --- costs ----------------------------------------------------------------------------------------
 def test_cost_cutoff_equalises_the_two_expected_costs():
     # Static cost-loss model (Murphy 1977): at p* acting costs (1 - p*) cFA, not acting p* cMiss.

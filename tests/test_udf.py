@@ -38,6 +38,10 @@ SIGNATURES = {
     "EVENT_LOGIT": "events, [predictors], [train_rows], [horizon], [lags], [cycle], [harmonics], [dates]",
     "EVENT_LOGIT_COEFS": "events, [predictors], [train_rows], [horizon], [lags], [cycle], [harmonics], "
                          "[dates]",
+    # DESIGN.md section 11
+    "EVENT_VALUE_PROB": "values, criterion, [predictors], [train_rows], [horizon], [lags], [cycle], "
+                        "[harmonics], [dates]",
+    "EVENT_MARKOV": "events, [train_rows], [horizon]",
     "EVENT_SCORES": "actual, forecast, [probability], [reference]",
     "EVENT_CONFUSION": "actual, forecast",
     "EVENT_BRIER": "actual, probability",

@@ -206,6 +206,9 @@ def test_criterion_text():
     assert c.criterion_text(">=1150") == ">=1150"
     with pytest.raises(InputError, match="`criterion` is required"):
         c.criterion_text(None)
+    for bad in (float("inf"), float("-inf"), float("nan")):   # a number with no text form
+        with pytest.raises(InputError, match="`criterion` must be a rule such as"):
+            c.criterion_text(bad)
 
 
 # ---------------------------------------------------------------- results and errors

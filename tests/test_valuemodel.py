@@ -308,7 +308,7 @@ def test_perfect_fit_gives_zero_or_one():
     ([1.0, 2.0, 3.0, 4.0], "<>0", 1, "equality"),
     ([1.0, 2.0, 3.0, 4.0], ">2", 2, "min_run is 2"),
     ([0, 1, None, 1, 0], ">0.5", 1, "only 0 and 1"),
-    ([True, False, True, True], "=TRUE", 1, "equality"),
+    ([True, False, True, True], "=TRUE", 1, "only 0 and 1"),      # the column is the first reason
     ([True, False, True, True], ">=1", 1, "only 0 and 1"),
     ([["ok"], ["alarm"], [None]], "<>ok", 1, "compares text"),     # a spreadsheet column range
 ])

@@ -1,5 +1,6 @@
 """Sampling uncertainty of scores: McNemar's test for two 0/1 forecasts, the Diebold-Mariano test
-for two probability forecasts, and Wilson intervals for proportions.
+for two probability forecasts, the two-proportion z test for two event rates, and Wilson intervals
+for proportions.
 
 Public names are re-exported by :mod:`sheetfns.scores`; import them from there.
 """
@@ -165,6 +166,64 @@ def diebold_mariano(actual: Any, prob_a: Any, prob_b: Any, horizon: int = 1
     from scipy.special import stdtr
 
     return stat, float(2.0 * stdtr(t - 1, -abs(stat)))
+
+
+def two_proportion(events_a: float, n_a: float, events_b: float, n_b: float) -> tuple[float, float]:
+    r"""Two-proportion z test (pooled) that two independent samples have the same event rate.
+
+    With rates :math:`\hat p_a = x_a / n_a`, :math:`\hat p_b = x_b / n_b` and the pooled rate
+    :math:`\hat p = (x_a + x_b) / (n_a + n_b)`,
+
+    .. math:: z = \frac{\hat p_a - \hat p_b}{\sqrt{\hat p (1 - \hat p) (1 / n_a + 1 / n_b)}}
+
+    is referred to the standard normal; the two-sided p-value is erfc(|z| / sqrt 2). (The score
+    test of equal proportions; its square is Pearson's chi-square of the 2 x 2 table without
+    continuity correction.)
+
+    Parameters
+    ----------
+    events_a, n_a : float
+        Events and periods of the first sample (e.g. the training period).
+    events_b, n_b : float
+        Events and periods of the second sample (e.g. the validation period).
+
+    Returns
+    -------
+    (statistic, pvalue) : tuple of float
+        z (positive when the first rate is the higher) and its two-sided p-value. Both NaN with an
+        :class:`UndefinedScoreWarning` when a sample is empty or the pooled rate is 0 or 1 (no
+        variation to test).
+
+    Raises
+    ------
+    InputError
+        If a count is negative or not a number, or events exceed periods.
+
+    References
+    ----------
+    .. [1] Agresti, A. (2013). *Categorical Data Analysis* (3rd ed.), section 3.1.2 (comparing two
+       proportions: the score statistic with the pooled standard error). Wiley.
+
+    Examples
+    --------
+    >>> z, p = two_proportion(30, 100, 15, 100)   # 30% against 15%
+    >>> round(z, 3), round(p, 4)
+    (2.54, 0.0111)
+    """
+    xa, na = _number(events_a, "events_a"), _number(n_a, "n_a")
+    xb, nb = _number(events_b, "events_b"), _number(n_b, "n_b")
+    for x, m, name in ((xa, na, "events_a"), (xb, nb, "events_b")):
+        if x > m:
+            raise InputError(f"`{name}` must not exceed its number of periods ({_show(m)}); got {_show(x)}",
+                             argument=name, value=x)
+    pooled = (xa + xb) / (na + nb) if na > 0 and nb > 0 else math.nan
+    if not 0.0 < pooled < 1.0:
+        q = Quotient()
+        q.mark("two_proportion")
+        q.warn("an empty sample, or a pooled rate of 0 or 1")
+        return math.nan, math.nan
+    z = (xa / na - xb / nb) / math.sqrt(pooled * (1.0 - pooled) * (1.0 / na + 1.0 / nb))
+    return z, math.erfc(abs(z) / math.sqrt(2.0))
 
 
 def wilson(successes: float, n: float, confidence: float = 0.95) -> tuple[float, float]:

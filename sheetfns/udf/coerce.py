@@ -263,8 +263,9 @@ def date_column(value: Any, name: str) -> np.ndarray:
     return _require_rows(dates(column_cells(value, name), name), name)
 
 
-def number_table(value: Any, name: str, *, rows: int) -> tuple[np.ndarray, list[str]]:
-    """A block of numeric columns, each a series of ``rows`` periods, and a name for each column.
+def number_table(value: Any, name: str, *, rows: int, of: str = "the events") -> tuple[np.ndarray, list[str]]:
+    """A block of numeric columns, each a series of ``rows`` periods (as many as ``of`` has), and a name
+    for each column.
 
     The block may carry one extra row on top holding a text label in every column (its header row);
     the labels then name the columns, otherwise they are ``<name> 1``, ``<name> 2``, ...
@@ -283,8 +284,8 @@ def number_table(value: Any, name: str, *, rows: int) -> tuple[np.ndarray, list[
             raise InputError(f"`{name}` header row must name each column once; got {labels}")
         cells = cells[1:]
     if len(cells) != rows:
-        raise InputError(f"`{name}` must cover the same rows as the events; the events have {rows} "
-                         f"rows, `{name}` has {len(cells)}")
+        raise InputError(f"`{name}` must cover the same rows as {of}; {of} have {rows} rows, `{name}` "
+                         f"has {len(cells)}")
     out = np.empty((rows, width), dtype=float)
     for j in range(width):
         out[:, j] = numbers([r[j] for r in cells], f"{name}` column `{labels[j]}")
@@ -373,6 +374,9 @@ def criterion_text(value: Any, name: str = "criterion") -> str:
     if isinstance(value, (bool, np.bool_)):
         return "=1" if value else "=0"
     if isinstance(value, (int, float, np.number)):
+        if not np.isfinite(float(value)):
+            raise InputError(f"`{name}` must be a rule such as \">=1150\" or a finite number; got "
+                             f"{_show(value)}")
         return f"={float(value)!r}" if float(value) != int(value) else f"={int(value)}"
     if not isinstance(value, str):
         raise InputError(f"`{name}` must be text such as \">=1150\"; got {_show(value)}")

@@ -83,6 +83,19 @@ def EVENT_LOGIT_COEFS(events: Cells, predictors: Cells = None, train_rows: Value
 
 
 @_face
+def EVENT_VALUE_PROB(values: Cells, criterion: Value, predictors: Cells = None, train_rows: Value = None,
+                     horizon: Value = 1, lags: Value = 1, cycle: Value = None, harmonics: Value = 2,
+                     dates: Cells = None) -> Spill:
+    return F.EVENT_VALUE_PROB(values, criterion, predictors, train_rows, horizon, lags, cycle, harmonics,
+                              dates)
+
+
+@_face
+def EVENT_MARKOV(events: Cells, train_rows: Value = None, horizon: Value = 1) -> Spill:
+    return F.EVENT_MARKOV(events, train_rows, horizon)
+
+
+@_face
 def EVENT_RATE_TABLE(dates: Cells, events: Cells, by: Value = "month") -> Spill:
     return F.EVENT_RATE_TABLE(dates, events, by)
 

@@ -20,9 +20,10 @@ from typing import Any
 
 import numpy as np
 
-from sheetfns import benchmarks, events, logistic, partition, profile, scores
+from sheetfns import benchmarks, events, logistic, markov, partition, profile, scores, valuemodel
 from sheetfns.checks import same_length
 from sheetfns.errors import InputError
+from sheetfns.scorecard import weekday_terms
 from sheetfns.udf import coerce as c
 from sheetfns.udf.registry import cells, sheet_function, value
 
@@ -32,7 +33,8 @@ Spill = Any   # a list of rows that spills, a single value, or a '#tocsin: ...' 
 
 __all__ = [
     "EVENT_FLAG", "EVENT_NAIVE", "EVENT_MAJORITY", "EVENT_SHARE", "EVENT_LOGIT", "EVENT_LOGIT_COEFS",
-    "EVENT_SCORES", "EVENT_CONFUSION", "EVENT_BRIER", "EVENT_RATE_TABLE", "EVENT_CUTOFF", "EVENT_COMPARE",
+    "EVENT_VALUE_PROB", "EVENT_MARKOV", "EVENT_SCORES", "EVENT_CONFUSION", "EVENT_BRIER", "EVENT_RATE_TABLE",
+    "EVENT_CUTOFF", "EVENT_COMPARE",
 ]
 
 # One-line help shared by several arguments (a wizard shows at most 255 characters of each).
@@ -104,25 +106,32 @@ def EVENT_SHARE(events: Cells, window: Value = None, train_rows: Value = None,
 
 
 # ----------------------------------------------------------------------------------------- logistic
-def _logit(events: Cells, predictors: Cells, train_rows: Value, horizon: Value, lags: Value,
-           cycle: Value, harmonics: Value, dates: Cells) -> logistic.LogitForecast:
-    y = c.event_column(events, "events")
+def _model_args(n: int, series: str, predictors: Cells, train_rows: Value, horizon: Value, lags: Value,
+                cycle: Value, harmonics: Value, dates: Cells) -> dict[str, Any]:
+    """The options the logistic model and the value model share, coerced; ``series`` names the column
+    the other ranges must match."""
     named = None
     if not c.omitted(predictors):
-        x, labels = c.number_table(predictors, "predictors", rows=y.size)
+        x, labels = c.number_table(predictors, "predictors", rows=n, of=f"the {series}")
         named = {label: x[:, j] for j, label in enumerate(labels)}
     d = None
     if not c.omitted(dates):
         d = c.date_column(dates, "dates")
-        same_length(events=y, dates=d)
-    return logistic.forecast(
-        y, predictors=named, dates=d,
-        weekday=d is not None and partition.infer_frequency(d) == "daily",
-        train_size=c.option_int(train_rows, "train_rows", None, minimum=1),
-        horizon=c.option_int(horizon, "horizon", 1, minimum=1),
-        lags=c.option_int(lags, "lags", 1, minimum=0),
-        cycle=c.option_float(cycle, "cycle", None, positive=True),
-        harmonics=c.option_int(harmonics, "harmonics", 2, minimum=0))
+        same_length(**{series: np.empty(n), "dates": d})
+    return {"predictors": named, "dates": d,
+            "weekday": d is not None and weekday_terms(partition.infer_frequency(d)),
+            "train_size": c.option_int(train_rows, "train_rows", None, minimum=1),
+            "horizon": c.option_int(horizon, "horizon", 1, minimum=1),
+            "lags": c.option_int(lags, "lags", 1, minimum=0),
+            "cycle": c.option_float(cycle, "cycle", None, positive=True),
+            "harmonics": c.option_int(harmonics, "harmonics", 2, minimum=0)}
+
+
+def _logit(events: Cells, predictors: Cells, train_rows: Value, horizon: Value, lags: Value,
+           cycle: Value, harmonics: Value, dates: Cells) -> logistic.LogitForecast:
+    y = c.event_column(events, "events")
+    return logistic.forecast(y, **_model_args(y.size, "events", predictors, train_rows, horizon, lags, cycle,
+                                              harmonics, dates))
 
 
 _LOGIT_ARGS = {
@@ -167,6 +176,46 @@ def EVENT_LOGIT_COEFS(events: Cells, predictors: Cells = None, train_rows: Value
     rows = [list(r) for r in t[cols].itertuples(index=False)]
     rows += [[f"note: {note}", None, None, None, None] for note in fc.notes]
     return c.to_table(cols, rows)
+
+
+# ----------------------------------------------------------------------- value model, two-state chain
+@sheet_function(
+    call_in_wizard=False,
+    values=cells("The data column the event rule reads: numbers, one cell per period; blanks at the end "
+                 "are future periods."),
+    criterion=value('The event rule as text, a threshold or a change: ">=1150", "<0", "rise", "fall>2", '
+                    '"fall%>5" (not "=" or text rules).'),
+    predictors=_LOGIT_ARGS["predictors"], train_rows=_TRAIN_ROWS, horizon=_HORIZON,
+    lags=value("Optional: how many past values (or changes) enter the model (default 1).",
+               zero_is_blank=False),
+    cycle=_LOGIT_ARGS["cycle"], harmonics=_LOGIT_ARGS["harmonics"], dates=_LOGIT_ARGS["dates"])
+def EVENT_VALUE_PROB(values: Cells, criterion: Value, predictors: Cells = None, train_rows: Value = None,
+                     horizon: Value = 1, lags: Value = 1, cycle: Value = None, harmonics: Value = 2,
+                     dates: Cells = None) -> Spill:
+    """Probability that the number crosses the rule's line: a least-squares forecast of the value (or its
+    change) and its Student t spread.
+
+    Spills a column of probabilities. Example: =EVENT_VALUE_PROB(B2:B2930, ">=1150", , 2343)."""
+    x = c.number_column(values, "values", keep_text=True)
+    rule = c.criterion_text(criterion)
+    fc = valuemodel.forecast(x, rule, **_model_args(x.size, "values", predictors, train_rows, horizon, lags,
+                                                     cycle, harmonics, dates))
+    if not fc.applies:
+        raise InputError(fc.notes[0])
+    if np.isnan(fc.prob).all():          # a column of blanks would not say why: show the notes
+        raise InputError("no row could be forecast: " + "; ".join(fc.notes))
+    return c.to_column(fc.prob)
+
+
+@sheet_function(events=_EVENTS, train_rows=_TRAIN_ROWS, horizon=_HORIZON)
+def EVENT_MARKOV(events: Cells, train_rows: Value = None, horizon: Value = 1) -> Spill:
+    """Two-state chain: the share of events after periods in the same state (event or not) as the
+    period `horizon` rows back.
+
+    Spills a column of probabilities. Example: =EVENT_MARKOV(D2:D2930, 2343)."""
+    y = c.event_column(events, "events")
+    return c.to_column(markov.forecast(y, train_size=c.option_int(train_rows, "train_rows", None, minimum=1),
+                                       horizon=c.option_int(horizon, "horizon", 1, minimum=1)))
 
 
 # ------------------------------------------------------------------------------------------- profile

@@ -56,7 +56,7 @@ def refresh_text(rep: Any) -> str:
         if j.status == "failed":
             lines.append(f"  {_shown(j.name)}: FAILED: {_shown(j.message)}")
             continue
-        lines.append(f"  {_shown(j.name)}: {j.status}; {_next(j)} (best by Brier: {j.best_method or '-'})")
+        lines.append(f"  {_shown(j.name)}: {j.status}; {_next(j)} (best: {j.best_method or 'none named'})")
         warnings = list(getattr(j, "warnings", ()))
         lines += [f"    warning: {_shown(w)}" for w in warnings[:WARNINGS_SHOWN]]
         if len(warnings) > WARNINGS_SHOWN:
@@ -173,6 +173,7 @@ def check_text(result: Any) -> str:
                      f"validation, {ev.n - ev.last_observed - 1} future rows)")
         lines.append(scorecard_text(ev))
         lines.append(ev.verdict)
+        lines += [f"warning: {w}" for w in ev.warnings]
     status = "ok" if result.ok else "problems found"
     lines.append("")
     lines.append(f"{name}: {status}")

@@ -116,7 +116,8 @@ def compute_job(job: Job, data: Any) -> JobOutcome:
         rows = f"rows {first}-{events.size}: the periods" if pad > 1 else f"row {first}: the period"
         notes.append(f"{rows} after the last data row (the job has no date column)")
     ev = evaluate(events, train_size=job.train_size, settings=settings_for(job), dates=data.dates,
-                  values=model_values(values), predictors=predictors, known_ahead=known)
+                  values=model_values(values), predictors=predictors, known_ahead=known,
+                  criterion=job.criterion, raw_values=raw, min_run=job.min_run)
     table = trend = None
     if data.dates is not None:
         table = profile.rate_table(data.dates, events, by=profile_period(job.frequency))

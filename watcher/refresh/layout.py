@@ -1,21 +1,6 @@
-"""What a forecast sheet and a profile sheet contain and look like, as :class:`SheetSpec` values.
-
-Forecast sheet (one per job)::
-
-    A..H  the left panel, read top to bottom        J..   the row-by-row table
-    ----------------------------------------------  ------------------------------------
-    title                                           date | value | event | period |
-    status / refreshed at / data through / event    one column per method (0/1) |
-    next-period forecast: method | forecast | prob  logistic probability
-    verdict, caution, notes                         (header in row 1, frozen)
-    validation scorecard: measure x methods
-    significance of the logistic model
-    logistic coefficients
-
-Row 1 holds both the title and the header of the row table, and only row 1 is frozen, so the row
-table keeps its header in view however far it is scrolled, while the header block, the scorecard and
-the table stay on one screen at the top. (A vertical stack with a frozen table header would freeze
-thirty rows.)
+"""What the sheets of a job contain and look like, as :class:`SheetSpec` values: the parts every sheet
+shares (:class:`SheetContext`, the caution, the cell helpers), the failed job's sheet and the profile
+sheet. The forecast sheet of a job that computed is :mod:`watcher.refresh.forecast_sheet`.
 
 Profile sheet: the event rate by period of year and year (colour scale) with a line chart (one line
 per year and the pooled share), the reliability table of the logistic validation probabilities with a
@@ -31,13 +16,11 @@ from typing import Any
 
 import numpy as np
 
-from sheetfns.scorecard import METHOD_LABELS, SCORE_ROWS, Evaluation, best_mask
+from sheetfns.scorecard import Evaluation
 from watcher.refresh.texts import CAUTION
 from watcher.xlsx.spec import Cells, ChartSpec, Column, Range, Ref, Series, SheetSpec, Table
 
-__all__ = ["CAUTION", "TABLE_COL", "SheetContext", "forecast_sheet", "failed_sheet", "profile_sheet"]
-TABLE_COL = 9  # column J: the row-by-row table
-MAX_NOTES = 12
+__all__ = ["CAUTION", "SheetContext", "date_or_row", "failed_sheet", "number", "profile_sheet", "wrapped"]
 WRAP = 105  # characters of text per row in the left panel (columns B..H)
 MAX_ROC_POINTS = 60
 
@@ -57,7 +40,8 @@ class SheetContext:
     notes: tuple[str, ...] = ()
 
 
-def _num(x: Any) -> float | None:
+def number(x: Any) -> float | None:
+    """A finite number, or None (a blank cell) for NaN, infinity and what is not a number."""
     try:
         f = float(x)
     except (TypeError, ValueError):
@@ -65,7 +49,8 @@ def _num(x: Any) -> float | None:
     return None if math.isnan(f) or math.isinf(f) else f
 
 
-def _date_or_row(dates: np.ndarray | None, i: int) -> Any:
+def date_or_row(dates: np.ndarray | None, i: int) -> Any:
+    """Row ``i`` as the sheets name it: its date (a datetime), else "row <i + 1>"."""
     if i < 0:
         return None
     if dates is not None and i < len(dates) and not np.isnat(dates[i]):
@@ -73,136 +58,10 @@ def _date_or_row(dates: np.ndarray | None, i: int) -> Any:
     return f"row {i + 1}"
 
 
-def _fmt_date_cell(v: Any) -> tuple[Any, str]:
-    return (v, "date") if isinstance(v, (dt.date, dt.datetime)) else (v, "general")
-
-
-def _wrapped(label: str, text: str, fmt: str = "general", width: int = WRAP) -> list[tuple[Any, ...]]:
+def wrapped(label: str, text: str, fmt: str = "general", width: int = WRAP) -> list[tuple[Any, ...]]:
     """A labelled text as rows of at most ``width`` characters, so it stays clear of the row table."""
     lines = textwrap.wrap(text, width) or [""]
     return [((label if i == 0 else "", "bold"), (line, fmt)) for i, line in enumerate(lines)]
-
-
-def forecast_sheet(ctx: SheetContext, ev: Evaluation, *, dates: np.ndarray | None, values: np.ndarray,
-                   events: np.ndarray) -> SheetSpec:
-    """The forecast sheet of one job that computed."""
-    blocks: list[Any] = []
-    last_date = _date_or_row(dates, ev.last_observed)
-    next_date = _date_or_row(dates, ev.last_observed + 1) if ev.last_observed + 1 < ev.n else None
-    head: list[tuple[tuple[Any, str], ...]] = [
-        ((f"tocsin forecast: {ctx.job}", "title"),),
-        (("status", "bold"), ("ok", "good")),
-        (("refreshed at", "bold"), (ctx.refreshed_at, "datetime")),
-        (("data through", "bold"), _fmt_date_cell(last_date)),
-        (("event", "bold"), (f"{ctx.event_text} (sheet {ctx.data_sheet}), horizon {ctx.horizon}",
-                             "general")),
-        (("periods", "bold"), (f"{ev.train_size} training, {ev.last_observed + 1 - ev.train_size} "
-                               f"validation, {ev.n - ev.last_observed - 1} future", "general")),
-    ]
-    blocks.append(Cells(0, 0, tuple(head)))
-    r = len(head) + 1
-    # Headline: the next-period forecast per method.
-    if next_date is None:
-        when = ": none, the data end with an observed period" + (
-            " (add the next date with a blank value)" if dates is not None else "")
-    else:
-        when = f" for {next_date:%Y-%m-%d}" if isinstance(next_date, dt.date) else f" for {next_date}"
-    blocks.append(Cells(r, 0, (((f"next-period forecast{when}", "bold"),),)))
-    r += 1
-    headline = ev.headline()
-    labels = [m.label for m in ev.methods]
-    fc = [headline[m.key][0] for m in ev.methods]
-    pr = [headline[m.key][1] for m in ev.methods]
-    words = ["" if math.isnan(f) else ("event" if f == 1 else "no event") for f in fc]
-    blocks.append(Table(r, 0, ("method", "forecast", "probability"),
-                        (Column(tuple(labels)), Column(tuple(words)),
-                         Column(np.asarray(pr, dtype=float), "percent"))))
-    r += len(labels) + 2
-    text_rows = _wrapped("verdict", ev.verdict) + _wrapped("caution", CAUTION, "italic")
-    notes = list(ctx.notes) + list(ev.notes)
-    for i, note in enumerate(notes[:MAX_NOTES]):
-        text_rows += _wrapped("notes" if i == 0 else "", note)
-    if len(notes) > MAX_NOTES:
-        text_rows.append((("", "general"), (f"... and {len(notes) - MAX_NOTES} more notes", "general")))
-    blocks.append(Cells(r, 0, tuple(text_rows)))
-    r += len(text_rows) + 1
-    r = _scorecard(blocks, r, ev)
-    r = _significance(blocks, r, ev)
-    _coefficients(blocks, r, ev)
-    # The row-by-row table.
-    n = ev.n
-    header = ["date" if dates is not None else "row", ctx.value_name, "event", "period"]
-    cols = [Column(dates if dates is not None else np.arange(1, n + 1, dtype=float),
-                   "date" if dates is not None else "integer"),
-            Column(values if getattr(values, "dtype", None) is np.dtype(object)
-                   else np.asarray(values, dtype=float)),
-            Column(np.asarray(events, dtype=float), "integer"),
-            Column(tuple(ev.period.tolist()))]
-    for m in ev.methods:
-        header.append(m.label)
-        cols.append(Column(m.forecast, "integer"))
-    if any(m.key == "logistic" for m in ev.methods):
-        header.append("logistic probability")
-        cols.append(Column(ev.method("logistic").prob, "percent"))
-    blocks.append(Table(0, TABLE_COL, tuple(header), tuple(cols)))
-    widths = {0: 30, **{c: 15 for c in range(1, 8)}, 8: 3, TABLE_COL: 12}
-    for j in range(1, len(header)):
-        widths[TABLE_COL + j] = max(10, min(22, len(header[j]) + 2))
-    return SheetSpec(ctx.sheet, tuple(blocks), col_widths=widths, freeze=(1, 0))
-
-
-def _scorecard(blocks: list[Any], r: int, ev: Evaluation) -> int:
-    """Methods as columns; rows grouped by cell format (counts, rates, scores), each group a table
-    whose best value per row is bold."""
-    keys = [m.key for m in ev.methods]
-    blocks.append(Cells(r, 0, (((f"validation scorecard ({ev.last_observed + 1 - ev.train_size} periods; "
-                                 "best value of each row in bold)", "bold"),),)))
-    r += 1
-    first = True
-    for fmt in ("integer", "percent", "dec3"):
-        rows = [row for row in SCORE_ROWS if row[2] == fmt]
-        if not rows:
-            continue
-        table = np.array([[ev.scorecard[k].get(key, math.nan) for k in keys] for key, *_ in rows],
-                         dtype=float)
-        best = np.array([best_mask(table[i], better) for i, (*_, better) in enumerate(rows)])
-        cols = [Column(tuple(label for _, label, _, _ in rows))]
-        cols += [Column(table[:, j], fmt, bold=best[:, j]) for j in range(len(keys))]
-        header = ("measure", *(m.label for m in ev.methods)) if first else None
-        t = Table(r, 0, header, tuple(cols))
-        blocks.append(t)
-        r += t.height
-        first = False
-    return r + 1
-
-
-def _significance(blocks: list[Any], r: int, ev: Evaluation) -> int:
-    c = ev.comparisons
-    if "logistic_vs_best_dm" not in c:
-        return r
-    other = METHOD_LABELS.get(str(c.get("best_benchmark")), str(c.get("best_benchmark")))
-    rows = (((f"logistic vs {other} (validation period)", "bold"),),
-            (("test", "header"), ("statistic", "header"), ("p-value", "header")),
-            (("McNemar (0/1 forecasts)", "general"), (_num(c.get("logistic_vs_best_mcnemar")), "dec3"),
-             (_num(c.get("logistic_vs_best_mcnemar_p")), "dec3")),
-            (("Diebold-Mariano (Brier loss)", "general"), (_num(c.get("logistic_vs_best_dm")), "dec3"),
-             (_num(c.get("logistic_vs_best_dm_p")), "dec3")))
-    blocks.append(Cells(r, 0, rows))
-    return r + len(rows) + 1
-
-
-def _coefficients(blocks: list[Any], r: int, ev: Evaluation) -> int:
-    coef = ev.coefficients
-    if coef is None or len(coef) == 0:
-        return r
-    blocks.append(Cells(r, 0, (((f"logistic coefficients (fit on the {ev.train_size} training rows)",
-                                 "bold"),),)))
-    r += 1
-    terms = tuple(str(t) for t in coef["term"])
-    cols = [Column(terms)] + [Column(np.asarray(coef[k], dtype=float), "dec3")
-                              for k in ("estimate", "std_error", "z", "p")]
-    blocks.append(Table(r, 0, ("term", "estimate", "std. error", "z", "p"), tuple(cols)))
-    return r + len(terms) + 2
 
 
 def failed_sheet(ctx: SheetContext, message: str) -> SheetSpec:

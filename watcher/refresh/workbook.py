@@ -26,7 +26,7 @@ from pathlib import Path
 from typing import Any
 
 from watcher.alert.deliver import Dispatcher
-from watcher.refresh import layout
+from watcher.refresh import forecast_sheet, layout
 from watcher.refresh.alerts import RECORD_KEY, Rang, ring_jobs
 from watcher.refresh.compute import JobOutcome, compute_job, digest, event_text
 from watcher.refresh.jobs import TABLE_SHEET, JobTable, read_job_table
@@ -62,8 +62,8 @@ def _sheets_for(outcome: JobOutcome, refreshed_at: dt.datetime) -> list[Any]:
         return []
     if outcome.error is not None:
         return [layout.failed_sheet(ctx, outcome.error)]
-    sheets = [layout.forecast_sheet(ctx, outcome.evaluation, dates=data.dates, values=outcome.values,
-                                    events=outcome.events)]
+    sheets = [forecast_sheet.forecast_sheet(ctx, outcome.evaluation, dates=data.dates,
+                                            values=outcome.values, events=outcome.events)]
     if outcome.profile is not None:
         sheets.append(layout.profile_sheet(ctx, outcome.profile, outcome.trend, outcome.evaluation))
     return sheets
