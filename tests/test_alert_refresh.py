@@ -196,7 +196,7 @@ def test_alert_off_and_a_bad_alert_setting(tmp_path, capsys):
     assert jobs["pump alarm"]["status"] == "ok" and jobs["pump alarm"]["alert"] is None
     assert jobs["typo"]["status"] == "failed" and jobs["typo"]["alert"] is None
     assert ("`alert` must be best, off or a method key (naive, naive_roll, seasonal, seasonal_roll, "
-            "majority, majority_roll, logistic") in jobs["typo"]["message"]
+            "majority, majority_roll, markov, logistic, value_model)") in jobs["typo"]["message"]
     assert "got 'logistc' in row 3 of sheet tocsin" in jobs["typo"]["message"]
     assert "alert" not in package.Package.open(path).state["jobs"]["pump alarm"]
 

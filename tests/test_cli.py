@@ -256,7 +256,8 @@ def test_a_0_1_best_method_is_never_reported_as_a_chance(tmp_path, capsys):
     code, out, err = run_cli(capsys, "refresh", "--force", str(path))
     assert code == 0, err
     line = out.splitlines()[1]
-    assert line == "  every third: ok; next period row 181 (best: rolling seasonal naive)", line
+    assert line == ("  every third: ok; next period row 181: event forecast (best: rolling seasonal "
+                    "naive)"), line
 
 
 # ------------------------------------------------------------------------------------------- check

@@ -51,13 +51,19 @@ def test_future_lists_every_future_period_with_its_origin(tmp_path, capsys):
             assert value["forecast"] in (0, 1)
             assert (value["probability"] is None) == (key not in PROBABILITY_METHODS), key
     # the next period's probability is the best method's, when that method states one
-    best = next(k for k in future[0]["forecasts"] if k in PROBABILITY_METHODS and
-                future[0]["forecasts"][k]["probability"] == job["next_probability"])
-    assert job["next_period"] == day(n) and best in PROBABILITY_METHODS
+    # (with about five validation events no method is ranked, DESIGN.md §8: then no chance is stated)
+    assert job["next_period"] == day(n)
+    if job["best_method"] is None:
+        assert job["next_probability"] is None
+    else:
+        best = next(k for k in future[0]["forecasts"] if k in PROBABILITY_METHODS and
+                    future[0]["forecasts"][k]["probability"] == job["next_probability"])
+        assert best in PROBABILITY_METHODS
     # an unchanged refresh reports the same, from tocsin's record in the workbook
     again, kept = refresh_json(capsys, path)
     assert again["status"] == "unchanged" and kept["status"] == "unchanged"
-    assert kept["future"] == future and kept["warnings"] == job["warnings"] == []
+    assert kept["future"] == future
+    assert kept["warnings"] == job["warnings"]
 
 
 def test_without_dates_periods_are_numbered_and_a_01_best_method_states_no_chance(tmp_path, capsys):
@@ -74,7 +80,7 @@ def test_without_dates_periods_are_numbered_and_a_01_best_method_states_no_chanc
     assert job["next_probability"] is None  # never the 0 or 1 of a naive forecast
     code, out, err = run_cli(capsys, "refresh", str(path))
     assert code == 0, err
-    assert ("pump alarm: unchanged; next period row 41: no event forecast (best by Brier: rolling naive)"
+    assert ("pump alarm: unchanged; next period row 41: no event forecast (best: rolling naive)"
             in out)
     assert "chance" not in out
 
@@ -85,7 +91,8 @@ def test_warnings_reach_the_json_and_the_command_line_capped(tmp_path, capsys):
         values[i] = text
     path = alarm_book(tmp_path / "text.xlsx", values=values)
     report, job = refresh_json(capsys, path)
-    warnings = job["warnings"]
+    every = job["warnings"]
+    warnings = [w for w in every if "read as missing" in w]  # the evaluation adds its own (few events)
     cells = [f"B{i + 2}" for i in TEXT_CELLS]  # data row i is sheet row i + 2 (after the header)
     assert len(warnings) == len(TEXT_CELLS)
     for cell, text, warning in zip(cells, TEXT_CELLS.values(), warnings, strict=True):
@@ -100,8 +107,8 @@ def test_warnings_reach_the_json_and_the_command_line_capped(tmp_path, capsys):
     assert code == 0, err
     lines = out.splitlines()
     at = next(i for i, line in enumerate(lines) if line.startswith("  pump alarm: unchanged"))
-    assert lines[at + 1:at + 6] == [f"    warning: {w}" for w in warnings[:5]]
-    assert lines[at + 6] == "    ... and 2 more warnings (see --json or the sheet's notes)"
+    assert lines[at + 1:at + 6] == [f"    warning: {w}" for w in every[:5]]
+    assert lines[at + 6] == f"    ... and {len(every) - 5} more warnings (see --json or the sheet's notes)"
     # and in the JSON of the unchanged refresh, from tocsin's record
     _, kept = refresh_json(capsys, path)
-    assert kept["warnings"] == warnings
+    assert kept["warnings"] == every
