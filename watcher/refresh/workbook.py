@@ -197,8 +197,8 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
     path = Path(path)
     start = time.monotonic()
 
-    def done(status: str, jobs: tuple[JobReport, ...] = (), message: str = "") -> RefreshReport:
-        return RefreshReport(path, status, jobs, message, time.monotonic() - start)
+    def done(status: str, jobs: tuple[JobReport, ...] = (), message: str = "", written=None) -> RefreshReport:
+        return RefreshReport(path, status, jobs, message, time.monotonic() - start, written)
 
     owner = owner_file(path)
     if owner is not None:
@@ -248,10 +248,10 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
     if progress:
         progress(f"{path.name}: writing", final=True)   # the last point where it may be abandoned
     try:
-        package.write(path, sheets, state=state, remove=remove, expect=pkg.fingerprint)
+        result = package.write(path, sheets, state=state, remove=remove, expect=pkg.fingerprint)
     except ConcurrentEditError as exc:
         return done("conflict", message=str(exc))
     except (ValueError, OSError) as exc:
         return done("failed", tuple(job_report(o, new) for o in outcomes), describe(exc))
     msg = "; ".join(e.message for e in table.errors if not e.job)
-    return done("refreshed", tuple(job_report(o, new) for o in outcomes), msg)
+    return done("refreshed", tuple(job_report(o, new) for o in outcomes), msg, result.fingerprint)
