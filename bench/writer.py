@@ -9,6 +9,8 @@ What is timed (each approach in its own process, so peak memory is its own):
 * ``tocsin write``    -- ``watcher.xlsx.package.write`` of the table as a new sheet into a small existing
   workbook (open, build, fsync, replace: end to end);
 * ``tocsin refresh``  -- the same call again on the result: the big sheet of tocsin's is replaced;
+* ``tocsin plain``    -- the same two calls without the optional fast libraries (numbers through
+  ``repr`` instead of ``orjson``, deflate through zlib instead of ``isal``): same bytes of XML;
 * ``openpyxl write-only`` -- a new workbook in openpyxl's write-only mode, ``append`` per row;
 * ``xlsxwriter constant-memory`` -- a new workbook in xlsxwriter's constant-memory mode, ``write_row``;
 * ``openpyxl load+save`` -- loading the workbook holding the table and saving it again (what a general
@@ -105,11 +107,18 @@ def _peak_mb() -> float:
 def child(name: str, n: int, folder: Path) -> dict:
     cols = make_columns(n)
     out: dict = {}
-    if name == "tocsin":
+    if name in ("tocsin", "tocsin_plain"):
+        import zlib
+
+        from watcher.xlsx import archive, xmlwriter
         from watcher.xlsx.package import Package, write
 
+        if name == "tocsin_plain":
+            xmlwriter._orjson = None
+            archive._isal, archive._crc32 = None, zlib.crc32
+
         spec = _spec(cols)
-        path = folder / "tocsin.xlsx"
+        path = folder / f"{name}.xlsx"
         _small_workbook(path)
         t = time.perf_counter()
         res = write(path, [spec], state={"bench": 1}, expect=Package.open(path).fingerprint)
@@ -188,6 +197,11 @@ def main(argv=None) -> int:
         print(f"  tocsin write        {ours['write']:8.2f} s   refresh {ours['refresh']:8.2f} s   "
               f"peak {ours['peak_mb']:7.0f} MB   file {ours['size_mb']:.1f} MB")
         print(f"  refresh changed only: {', '.join(ours['changed'])}")
+        plain = _run("tocsin_plain", n, folder)
+        print(f"  tocsin without orjson/isal: write {plain['write']:8.2f} s   "
+              f"refresh {plain['refresh']:8.2f} s   "
+              f"(fast paths: write {plain['write'] / ours['write']:.1f}x, "
+              f"refresh {plain['refresh'] / ours['refresh']:.1f}x)")
         rows = [("openpyxl write-only", "openpyxl_wo", "write"),
                 ("xlsxwriter constant-memory", "xlsxwriter_cm", "write")]
         if not args.skip_load_save:

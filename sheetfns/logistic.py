@@ -205,9 +205,10 @@ def forecast(y: Any, *, values: Any = None, predictors: Mapping[str, Any] | None
     ``coefficients`` is the table of the fit behind the last observed row's forecast (the fixed fit
     under ``"fixed"``); with no such row, the future fit's.
 
-    Refits after the first are warm-started Newton solves from the previous estimate (one or two
-    steps each); a window that is separated, collinear or one-class goes through the full checks of
-    :func:`fit`. Results agree with from-scratch fits to about 1e-10.
+    Refits after the first solve a local model of the likelihood kept up to date row by row, with a
+    pass over the window only when the model's error bound calls for one (see
+    ``sheetfns/_logit/rolling.py``); a window that is separated, collinear or one-class goes through
+    the full checks of :func:`fit`. Probabilities agree with from-scratch fits to about 1e-9.
     """
     yy = as_events(y, "y")
     n = yy.size

@@ -181,6 +181,54 @@ def test_quasi_complete_separation_is_detected():
     assert any("separation" in n for n in res.notes)
 
 
+def _persistent_level_events(n: int, seed: int = 19000301) -> tuple[np.ndarray, np.ndarray]:
+    """Invented data: a persistent AR(1) level with a daily cycle (as bench/refresh.py's full-height
+    sheet); the event is "level > 1.5", the predictors the last event and the last level. The level
+    predicts the event so sharply that ~1 % of the rows are fitted with probability 0 or 1 to 1e-11,
+    yet the maximum-likelihood estimate is finite (the classes overlap)."""
+    rng = np.random.default_rng(seed)
+    noise = rng.normal(scale=0.35, size=n + 1)
+    level = np.empty(n + 1)
+    x = 0.0
+    for i, e in enumerate(noise.tolist()):
+        x = 0.97 * x + e
+        level[i] = x
+    level += 0.8 * np.sin(2 * np.pi * np.arange(n + 1) / 24.0)
+    event = (level > 1.5).astype(float)
+    return np.column_stack([event[:-1], level[:-1]]), event[1:]
+
+
+def test_large_ordinary_fit_with_saturated_rows_is_not_separation():
+    # 120,000 rows: the estimate equals statsmodels Logit (which converges normally) and no note speaks
+    # of separation, although hundreds of rows are fitted to within 1e-11 of their outcome
+    x, y = _persistent_level_events(120_000)
+    ours = logistic.fit(x, y)
+    ref = _sm_fit(sm.add_constant(x), y)
+    assert ref.mle_retvals["converged"]
+    eta = sm.add_constant(x) @ ref.params
+    assert np.sum(np.where(y > 0.5, eta, -eta) > 25) > 100
+    assert ours.penalty == 0.0 and ours.converged and not any("separation" in n for n in ours.notes)
+    np.testing.assert_allclose(ours.params, ref.params, rtol=0, atol=1e-6)
+    np.testing.assert_allclose(ours.bse, ref.bse, rtol=1e-6)
+    assert ours.llf == pytest.approx(ref.llf, abs=1e-6)
+
+
+def test_large_quasi_separated_fit_still_states_separation():
+    # the same 120,000 rows and a marker column that is 1 on 25 rows, every one an event: its
+    # coefficient has no finite maximum-likelihood estimate (quasi-complete separation, Albert &
+    # Anderson, 1984), which the fit must state and answer with the ridge penalty
+    x, y = _persistent_level_events(120_000)
+    marker = np.zeros(y.size)
+    marker[np.flatnonzero(y > 0.5)[::400][:25]] = 1.0
+    res = logistic.fit(np.column_stack([x, marker]), y)
+    assert res.penalty == logistic.RIDGE and np.isfinite(res.params).all()
+    assert any("separation" in n and "ridge" in n for n in res.notes)
+    # complete separation at that size too: y = 1 exactly when the level is above 1.5
+    level = x[:, 1]
+    res = logistic.fit(level, (level > 1.5).astype(float))
+    assert res.penalty == logistic.RIDGE and any("separation" in n for n in res.notes)
+
+
 def test_constant_target_falls_back_to_majority_share():
     x = np.arange(10.0)
     for value in (0.0, 1.0):
@@ -227,6 +275,22 @@ def test_time_axis_units():
     assert serial.weekday[0] == 0.0
 
 
+@pytest.mark.parametrize("start, freq, n", [("1899-12-25", "D", 500), ("1969-12-29 06:00", "h", 900),
+                                            ("2021-01-04", "7D", 60), ("1950-01-31", "ME", 40),
+                                            ("2001-03-31", "QE", 30), ("1990-01-01", "YS", 25),
+                                            ("2024-01-01", "B", 300)])
+def test_time_axis_of_datetime64_in_numpy_equals_pandas(start, freq, n):
+    # the datetime64 path (numpy only) against pandas' calendar (DatetimeIndex year, month, day_of_week),
+    # the path of dates in any other form; NaT rows included
+    stamps = pd.date_range(start, periods=n, freq=freq).to_numpy().astype("datetime64[s]")
+    stamps[[3, n // 2]] = np.datetime64("NaT")
+    fast = time_axis(stamps, n)
+    slow = time_axis(np.array([None if np.isnat(v) else pd.Timestamp(v) for v in stamps], dtype=object), n)
+    assert fast.unit == slow.unit
+    np.testing.assert_allclose(fast.tau, slow.tau, rtol=1e-15, atol=1e-12, equal_nan=True)
+    np.testing.assert_array_equal(fast.weekday, slow.weekday)
+
+
 def test_weekday_terms_leave_one_day_out():
     dates = pd.date_range("2024-01-01", periods=21, freq="D")
     d = build(np.zeros(21), dates=dates, lags=0, weekday=True)
@@ -260,6 +324,31 @@ def test_roll_forward_everywhere_matches_statsmodels_refits(horizon, lags):
     ref = _reference_forecast(y, x, range(first, y.size), horizon, lambda t: t - horizon)
     np.testing.assert_allclose(res.prob[first:], [ref[t] for t in range(first, y.size)], atol=1e-6)
     assert res.prob.size == y.size
+
+
+def test_long_roll_forward_skips_passes_and_matches_statsmodels_to_1e_8(monkeypatch):
+    # 12,000 rows: a quarter of the windows and more are solved from the local model at an anchor
+    # without a pass over the window; the probabilities still equal statsmodels Logit refitted from
+    # scratch (Newton to 1e-12) to 1e-8, checked at every 100th origin and the last ones
+    from sheetfns._logit import irls
+
+    passes = []
+    real = irls.evaluate3
+    monkeypatch.setattr(irls, "evaluate3", lambda *a, **k: passes.append(1) or real(*a, **k))
+    y = _markov_events(12000, seed=13, cycle=365.25)
+    res = logistic.forecast(y, lags=1, cycle=365.25, harmonics=2)
+    x = _reference_design(y, 1, 1, 365.25, 2)
+    first = int(np.flatnonzero(~np.isnan(res.prob))[0])
+    assert res.refits > 11000 and len(passes) < 0.75 * res.refits, (len(passes), res.refits)
+    origins = list(range(first, y.size, 100)) + list(range(y.size - 5, y.size))
+    ref = {}
+    for t in origins:
+        rows = np.flatnonzero(np.isfinite(x[:t]).all(axis=1))
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            fit = sm.Logit(y[rows], x[rows]).fit(disp=0, maxiter=100, tol=1e-12)
+        ref[t] = float(fit.predict(x[t:t + 1])[0])
+    np.testing.assert_allclose([res.prob[t] for t in origins], [ref[t] for t in origins], rtol=0, atol=1e-8)
 
 
 @pytest.mark.parametrize("refit,every", [("fixed", 0), ("roll", 1), ("roll 4", 4)])

@@ -150,7 +150,7 @@ def test_an_unexpected_error_in_the_deflate_thread_is_a_package_error(monkeypatc
         def flush(self):
             return b""
 
-    monkeypatch.setattr(archive.zlib, "compressobj", lambda *a: Broken())
+    monkeypatch.setattr(archive, "_compressor", lambda level: Broken())
     kind, value = _in_thread(lambda: _stream(io.BytesIO()))
     assert kind == "error" and isinstance(value, PackageError) and not isinstance(value, WriteError)
     assert "compressing part 'xl/worksheets/sheet9.xml' failed (error: invented failure)" in str(value)

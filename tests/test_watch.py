@@ -561,3 +561,26 @@ def test_busy_answer_from_the_refresh_is_retried(share):
         assert fake.refreshed(book) == [digest_of("v1")]
     assert "  busy     " not in rig.stream.getvalue()  # no status line: the debouncer's waiting line says it
     assert [r["status"] for r in rig.events("refresh")][:2] == ["busy", "refreshed"]
+
+
+def test_probe_knows_the_file_tocsin_wrote_by_size_mtime_and_sha256(tmp_path):
+    from watcher.watch.probe import FileProbe
+    from watcher.xlsx.package import Fingerprint
+
+    path = tmp_path / "book.xlsx"
+    data = workbook_bytes("<v>1</v>")
+    path.write_bytes(data)
+    st = os.stat(path)
+    written = Fingerprint(st.st_size, st.st_mtime_ns, hashlib.sha256(data).hexdigest())
+    probe = FileProbe()
+    assert probe.is_written(path, written)
+    # a save of the same size within the same mtime tick: only the hash tells it apart
+    path.write_bytes(data[:-30] + bytes(b ^ 1 for b in data[-30:]))
+    os.utime(path, ns=(st.st_atime_ns, st.st_mtime_ns))
+    assert os.stat(path).st_size == written.size and os.stat(path).st_mtime_ns == written.mtime_ns
+    assert not probe.is_written(path, written)
+    path.write_bytes(data)  # the same bytes, a later mtime: a save, refreshed (it then answers "unchanged")
+    os.utime(path, ns=(st.st_atime_ns, st.st_mtime_ns + 1_000_000_000))
+    assert not probe.is_written(path, written)
+    path.unlink()
+    assert not probe.is_written(path, written)

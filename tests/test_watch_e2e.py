@@ -1,9 +1,10 @@
 """The watcher with the real refresh, on a copy of a sample workbook (island ferry, 2 jobs).
 
 Checks the whole loop: the initial refresh writes the forecast sheets; tocsin's own write comes back as
-"unchanged" (no loop); a colleague's save (one data cell edited inside the package, every other part
-kept, as a spreadsheet program re-saves) gives exactly one more refresh; a damaged workbook is logged
-and the watcher carries on; ``python -m watcher.cli watch`` stops on SIGTERM with exit code 0.
+"unchanged" without being read again (the refresh is not called for it); a colleague's save (one data
+cell edited inside the package, every other part kept, as a spreadsheet program re-saves) gives
+exactly one more refresh; a damaged workbook is logged and the watcher carries on;
+``python -m watcher.cli watch`` stops on SIGTERM with exit code 0.
 """
 from __future__ import annotations
 
@@ -24,6 +25,7 @@ from xml.etree import ElementTree
 import pytest
 from test_watch import wait_for
 
+from watcher.refresh.workbook import refresh_workbook
 from watcher.watch.log import WatchLog
 from watcher.watch.service import Watcher
 
@@ -100,10 +102,19 @@ def test_real_refresh_initial_pass_then_a_colleagues_save(tmp_path):
     outcomes = Outcomes()
     stream = io.StringIO()
     log = WatchLog(stream, tmp_path / "log.jsonl")
-    with Watcher([share], quiet=0.5, log=log, on_outcome=outcomes) as watcher:
+    calls: list[Path] = []
+
+    def counted(path, **kwargs):
+        calls.append(path)
+        return refresh_workbook(path, **kwargs)
+
+    with Watcher([share], quiet=0.5, log=log, on_outcome=outcomes, refresh=counted) as watcher:
         assert wait_for(lambda: "unchanged" in outcomes.statuses(book) and watcher.idle(), TIMEOUT), \
             outcomes.statuses(book)
         assert outcomes.statuses(book) == ["refreshed", "unchanged"]
+        assert calls.count(book) == 1  # its own write came back and was known without a refresh
+        with outcomes.lock:
+            assert "own write" in [o for o in outcomes.items if o.path == book][-1].message
         assert outcomes.statuses(broken) == ["failed"]
         names = sheet_names(book)
         assert {"Passengers", "tocsin", "second sailing forecast"} <= set(names)
@@ -113,6 +124,7 @@ def test_real_refresh_initial_pass_then_a_colleagues_save(tmp_path):
             return outcomes.statuses(book).count("unchanged") == 2 and watcher.idle()
         assert wait_for(settled_again, TIMEOUT), outcomes.statuses(book)
         assert outcomes.statuses(book) == ["refreshed", "unchanged", "refreshed", "unchanged"]
+        assert calls.count(book) == 2
         assert sheet_names(book) == names
     log.close()
     text = stream.getvalue()

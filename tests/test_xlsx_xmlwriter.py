@@ -14,10 +14,11 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from lxml import etree
 
+from watcher.xlsx import xmlwriter
 from watcher.xlsx.chart import _ChartWriter
 from watcher.xlsx.spec import Cells, SheetSpec
 from watcher.xlsx.worksheet import _WorksheetWriter
-from watcher.xlsx.xmlwriter import DECLARATION, XMLWriter, escape_attr, escape_data, number_text
+from watcher.xlsx.xmlwriter import DECLARATION, XMLWriter, escape_attr, escape_data, number_text, number_texts
 
 
 def _is_xml_char(cp: int) -> bool:
@@ -104,6 +105,38 @@ def test_number_text_reads_back_bit_exact():
     for v in values[np.isfinite(values)].tolist():
         text = number_text(v)
         assert struct.pack("<d", float(text)) == struct.pack("<d", v), text
+
+
+def _many_doubles() -> np.ndarray:
+    # invented data: seeded random bit patterns (every exponent, subnormals), ordinary magnitudes, one
+    # decimal, integers, and the edges of repr's positional range (1e-4, 1e16) and of exact integers
+    rng = np.random.default_rng(12)
+    bits = rng.integers(0, 2**64, size=100_000, dtype=np.uint64).view(np.float64)
+    edges = [1e-4, np.nextafter(1e-4, 0), 1e16, np.nextafter(1e16, 0), 2.0**53, 2.0**53 + 2, -(2.0**53),
+             0.0, -0.0, 5e-324, 1.7976931348623157e308, 0.1, 1 / 3, 3.0, -7.0, 1e22, 1e23]
+    x = np.concatenate([bits, rng.standard_normal(100_000) * 10.0 ** rng.integers(-8, 20, 100_000),
+                        np.round(rng.normal(800, 90, 50_000), 1), rng.integers(-10**9, 10**9, 20_000), edges])
+    return x[np.isfinite(x)]
+
+
+@pytest.mark.parametrize("fast", [True, False], ids=["orjson", "repr"])
+def test_number_texts_is_number_text_in_bulk(monkeypatch, fast):
+    # The bulk texts must be the scalar rule's texts character for character (one rule, two speeds),
+    # with orjson and without it; and they read back bit-exact (Python's float(), a correctly rounded
+    # decimal-to-double conversion).
+    if not fast:
+        monkeypatch.setattr(xmlwriter, "_orjson", None)
+    else:
+        assert xmlwriter._orjson is not None  # orjson is a dependency; the fast path must be tested
+    x = _many_doubles()
+    got = number_texts(x)
+    assert got.dtype == object and len(got) == len(x)
+    assert got.tolist() == [number_text(v) for v in x.tolist()]
+    back = np.array(got.tolist(), dtype=np.float64)
+    assert np.array_equal(back.view(np.int64), x.view(np.int64))
+    assert number_texts(np.array([3.0, 4.0, -0.0])).tolist() == ["3", "4", "-0.0"]
+    assert number_texts(np.array([], dtype=float)).tolist() == []
+    assert number_texts(np.arange(1, 4, dtype=float)).tolist() == ["1", "2", "3"]
 
 
 def test_number_attributes_and_elements_take_the_fast_path():

@@ -73,8 +73,6 @@ def shift(a: np.ndarray, k: int) -> np.ndarray:
 
 def time_axis(dates: Any, n: int) -> TimeAxis:
     """Read ``dates`` (datetimes, date strings, or spreadsheet serial day numbers) into a time axis."""
-    import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
-
     raw = dates.to_numpy() if hasattr(dates, "to_numpy") else np.asarray(dates, dtype=object)
     if raw.ndim != 1:
         raw = raw.reshape(-1) if raw.ndim == 2 and 1 in raw.shape else raw
@@ -84,6 +82,50 @@ def time_axis(dates: Any, n: int) -> TimeAxis:
     if raw.size != n:
         raise InputError(f"`dates` must have one date per row of `y`; got {raw.size} dates for {n} rows",
                          argument="dates", value=dates)
+    if raw.dtype.kind == "M":  # datetime64 (the refresh's date columns): numpy alone, no pandas
+        days, months, weekday, valid = _calendar(raw)
+    else:
+        days, months, weekday, valid = _calendar_of_any(raw, dates)
+    gaps = np.diff(days[valid])
+    gap = float(np.median(gaps)) if gaps.size else 1.0
+    if 0.5 < gap < 1.5:
+        tau, unit = days, "days since the first date"
+    elif 6.0 <= gap <= 8.0:
+        tau, unit = days / 7.0, "weeks since the first date"
+    elif 27.0 <= gap <= 32.0:
+        tau, unit = months, "calendar months since the first date"
+    elif 88.0 <= gap <= 93.0:
+        tau, unit = months / 3.0, "calendar quarters since the first date"
+    elif 360.0 <= gap <= 370.0:
+        tau, unit = months / 12.0, "calendar years since the first date"
+    elif gap > 0.0:
+        tau, unit = days / gap, f"periods of {gap:g} days since the first date"
+    else:
+        raise InputError("`dates` must advance: the median gap between consecutive dates is 0 days",
+                         argument="dates", value=dates)
+    return TimeAxis(tau, weekday, unit)
+
+
+def _calendar(raw: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Days and calendar months since the first date, weekday (Monday 0) and the rows with a date, of
+    a ``datetime64`` array (NaN where NaT); the same numbers as pandas' DatetimeIndex gives."""
+    valid = np.flatnonzero(~np.isnat(raw))
+    if valid.size == 0:
+        raise InputError("`dates` holds no date (every entry is blank)", argument="dates", value=raw)
+    first = raw[valid[0]]
+    nat = np.isnat(raw)
+    days = np.where(nat, np.nan, (raw - first) / np.timedelta64(1, "D"))
+    month = raw.astype("datetime64[M]").astype(np.int64)
+    months = np.where(nat, np.nan, (month - month[valid[0]]).astype(float))
+    day = raw.astype("datetime64[D]").astype(np.int64)
+    weekday = np.where(nat, np.nan, ((day + 3) % 7).astype(float))  # 1970-01-01 was a Thursday (3)
+    return days, months, weekday, valid
+
+
+def _calendar_of_any(raw: np.ndarray, dates: Any) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """:func:`_calendar` of dates in any form pandas reads: datetimes, date text, serial day numbers."""
+    import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
+
     try:
         if raw.dtype.kind in "fiu" or (raw.dtype == object and all(
                 isinstance(v, (int, float, np.number)) and not isinstance(v, bool)
@@ -111,24 +153,7 @@ def time_axis(dates: Any, n: int) -> TimeAxis:
     months = (np.asarray(idx.year, dtype=float) - first.year) * 12.0 + (
         np.asarray(idx.month, dtype=float) - first.month)
     weekday = np.asarray(idx.day_of_week, dtype=float)
-    gaps = np.diff(days[valid])
-    gap = float(np.median(gaps)) if gaps.size else 1.0
-    if 0.5 < gap < 1.5:
-        tau, unit = days, "days since the first date"
-    elif 6.0 <= gap <= 8.0:
-        tau, unit = days / 7.0, "weeks since the first date"
-    elif 27.0 <= gap <= 32.0:
-        tau, unit = months, "calendar months since the first date"
-    elif 88.0 <= gap <= 93.0:
-        tau, unit = months / 3.0, "calendar quarters since the first date"
-    elif 360.0 <= gap <= 370.0:
-        tau, unit = months / 12.0, "calendar years since the first date"
-    elif gap > 0.0:
-        tau, unit = days / gap, f"periods of {gap:g} days since the first date"
-    else:
-        raise InputError("`dates` must advance: the median gap between consecutive dates is 0 days",
-                         argument="dates", value=dates)
-    return TimeAxis(tau, weekday, unit)
+    return days, months, weekday, valid
 
 
 def _named(mapping: Mapping[str, Any] | None, arg: str, n: int) -> list[tuple[str, np.ndarray]]:

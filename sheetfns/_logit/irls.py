@@ -17,6 +17,18 @@ Convergence: the largest change of any fitted linear predictor ``|x_i' d|`` in t
 the gradient and Hessian already computed at that point squares it again at no cost.
 Unlike a test on the log-likelihood, this test does not mistake the slow flattening of a separated
 likelihood for convergence: there the linear predictors keep growing by O(1) per step.
+
+Separation (Albert & Anderson, 1984, "On the existence of maximum likelihood estimates in logistic
+regression models", *Biometrika* 71(1), 1-10): the maximum-likelihood estimate fails to exist exactly
+when some direction ``d != 0`` has ``(2 y_i - 1) x_i' d >= 0`` for every row (complete separation when
+all are > 0, quasi-complete when some are 0); along such a direction every fitted probability moves
+towards its outcome or stays, so the likelihood keeps rising as ``||b||`` grows. Rows fitted with
+probability 0 or 1 to ~1e-11 (|eta| > :data:`SATURATED_ETA` on the side of their outcome) only raise the
+question: a large sample fitted to a finite estimate has such rows too (an extreme predictor value), so
+:func:`newton` flags separation only with a certificate, a direction passing the test above on every
+row (:func:`separating_direction`). The candidates are the direction the estimates keep growing in (the
+last Newton step) and the flattest directions of the Hessian, in which the saturated rows no longer
+weigh.
 """
 from __future__ import annotations
 
@@ -28,6 +40,9 @@ import numpy as np
 SATURATED_ETA = 25.0
 #: Relative residual sum of squares under which a column counts as a combination of earlier ones.
 COLLINEAR_TOL = 1e-10
+#: A direction separates when no row's signed margin (2 y - 1) x' d falls below -SEPARATION_TOL times
+#: the largest |margin|: rows on the separating hyperplane have margin 0 up to the rounding of ``d``.
+SEPARATION_TOL = 1e-6
 
 
 @dataclass
@@ -146,9 +161,80 @@ def evaluate(x: np.ndarray, y: np.ndarray, b: np.ndarray, *, need_llf: bool = Tr
     return llf, g, h, eta
 
 
+def evaluate3(x: np.ndarray, y: np.ndarray, b: np.ndarray, *, third: bool = True
+              ) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
+    """One pass at ``b``: the gradient ``X'(y - p)``, ``H = X'WX`` and, when ``third``, the third
+    derivatives ``T[j, k, l] = sum_i w_i (1 - 2 p_i) x_ij x_ik x_il`` (the gradient at ``b + d`` is
+    ``g - H d - T[d, d] / 2 + O(|d|^3)``); else None for T."""
+    n, k = x.shape
+    g = np.zeros(k)
+    h = np.zeros((k, k))
+    t = np.zeros((k, k, k)) if third else None
+    for s in range(0, n, CHUNK):
+        gc, hc, tc = row_terms(x[s:s + CHUNK], y[s:s + CHUNK], b, third=third)
+        g += gc
+        h += hc
+        if t is not None:
+            t += tc
+    return g, h, t
+
+
+def row_terms(x: np.ndarray, y: np.ndarray, b: np.ndarray, *, third: bool = True
+              ) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
+    """The rows' shares of :func:`evaluate3`'s gradient, Hessian and third derivatives at ``b``."""
+    ec = x @ b
+    e = np.exp(-np.abs(ec))
+    inv = 1.0 / (1.0 + e)
+    p = np.where(ec >= 0.0, inv, e * inv)
+    g = x.T @ (y - p)
+    xw = x * (np.sqrt(e) * inv)[:, None]
+    h = xw.T @ xw
+    if not third:
+        return g, h, None
+    z = x * (e * inv * inv * (1.0 - 2.0 * p))[:, None]
+    t = np.stack([(x * z[:, j:j + 1]).T @ x for j in range(x.shape[1])])
+    return g, h, t
+
+
 def saturated(y: np.ndarray, eta: np.ndarray) -> bool:
     """True when some rows are fitted perfectly: probability 0 or 1 (to ~1e-11) on the observed side."""
     return bool(np.any(np.where(y > 0.5, eta, -eta) > SATURATED_ETA))
+
+
+def separates(x: np.ndarray, y: np.ndarray, d: np.ndarray) -> bool:
+    """True when ``d`` certifies (quasi-)complete separation: every row's margin ``(2 y_i - 1) x_i' d``
+    is >= 0 (to :data:`SEPARATION_TOL` of the largest) and some is > 0 (Albert & Anderson, 1984)."""
+    if not np.all(np.isfinite(d)) or not np.any(d):
+        return False
+    lo = hi = 0.0
+    for s in range(0, x.shape[0], CHUNK):
+        m = x[s:s + CHUNK] @ d
+        m = np.where(y[s:s + CHUNK] > 0.5, m, -m)
+        lo, hi = min(lo, float(m.min())), max(hi, float(np.abs(m).max()))
+    return hi > 0.0 and lo >= -SEPARATION_TOL * hi
+
+
+def separating_direction(x: np.ndarray, y: np.ndarray, h: np.ndarray, step: np.ndarray | None
+                         ) -> np.ndarray | None:
+    """A direction certifying separation (:func:`separates`), or None when no candidate does.
+
+    Candidates: ``step`` (the direction the estimates grew in last), then the eigenvectors of the
+    Hessian ``h`` (= X'WX) for its smallest eigenvalues, in both signs, after scaling the columns of X
+    to unit length: rows fitted perfectly have weight ~0, so the direction that separates them is one
+    in which the likelihood is flat.
+    """
+    cands = [] if step is None else [step]
+    norms = np.sqrt(np.maximum(np.diag(crossprod(x)), 0.0))
+    if np.all(norms > 0.0) and np.all(np.isfinite(h)):
+        sc = 1.0 / norms
+        vals, vecs = np.linalg.eigh(h * np.outer(sc, sc))
+        for j in np.argsort(vals)[:2]:
+            v = vecs[:, j] * sc
+            cands += [v, -v]
+    for d in cands:
+        if separates(x, y, d):
+            return d
+    return None
 
 
 def newton(x: np.ndarray, y: np.ndarray, start: np.ndarray, *, penalty: np.ndarray | None = None,
@@ -176,8 +262,9 @@ def newton(x: np.ndarray, y: np.ndarray, start: np.ndarray, *, penalty: np.ndarr
         anyway, so the estimate it belongs to needs no further pass.
     watch_separation : bool
         Flag ``diverging`` (separation) when some row is fitted perfectly (|eta| > SATURATED_ETA on
-        the side of its outcome) at the end, and stop early when after 8 steps that happens while the
-        linear predictors still move by more than 1e-3.
+        the side of its outcome) and a direction certifies separation (:func:`separating_direction`):
+        at the end, or early (every 4th step after the 8th) while the linear predictors still move by
+        more than 1e-3 (then the last step is the first candidate).
     """
     b = np.array(start, dtype=float)
     pen = penalty
@@ -216,14 +303,15 @@ def newton(x: np.ndarray, y: np.ndarray, start: np.ndarray, *, penalty: np.ndarr
             if np.all(np.isfinite(dd)):
                 b = b + dd
             break
-        if watch_separation and it >= 8 and change > 1e-3 and saturated(y, eta):
-            diverging = True
+        if watch_separation and it >= 8 and change > 1e-3 and it % 4 == 0 and saturated(y, eta) \
+                and separating_direction(x, y, h, step * d) is not None:
+            diverging = True  # still growing, along a direction that separates
             break
     if not diverging and watch_separation and saturated(y, eta):
         # Also after "convergence": a first step can throw a lone separated row far out, where its
-        # weight underflows, the Hessian turns singular and the steps vanish. A finite maximum with
-        # a row fitted to within 1e-11 of its outcome is, in practice, separation.
-        diverging = True
+        # weight underflows, the Hessian turns singular and the steps vanish. Rows fitted to within
+        # 1e-11 of their outcome are separation only when a direction certifies it.
+        diverging = separating_direction(x, y, h, None) is not None
     if pen is not None:
         h = h + np.diag(pen)
     return NewtonResult(b, llf, converged, it, h if need_hessian and converged else None, diverging)

@@ -18,8 +18,6 @@ from typing import Any
 from sheetfns.errors import InputError
 from watcher.alert.errors import AlertOptionError
 from watcher.alert.options import add_alert_arguments, dispatcher_from_args
-from watcher.watch.log import WatchLog
-from watcher.watch.service import Watcher
 
 __all__ = ["add_watch_arguments", "main_watch", "run_watch"]
 
@@ -94,6 +92,11 @@ def main_watch(
     ``dispatcher`` (:func:`watcher.alert.options.dispatcher_from_args`) says where alerts go; None: nowhere
     (the states are still recorded). Errors print ``error: ...`` on stderr, without a traceback.
     """
+    # the watcher's modules are imported when it starts: with ctypes, logging and traceback they cost
+    # 70-90 ms (python -X importtime), which every other command (refresh, check) would pay
+    from watcher.watch.log import WatchLog
+    from watcher.watch.service import Watcher
+
     stop = stop_event if stop_event is not None else threading.Event()
     try:
         watch_log = WatchLog(sys.stderr, log)

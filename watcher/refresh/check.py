@@ -2,7 +2,9 @@
 
 The check runs the refresh's own steps (:func:`watcher.refresh.workbook.evaluate_book` and
 :func:`watcher.refresh.workbook.lay_out`), so it never passes a job that a refresh would refuse, and it
-adds the package's structural problems (:func:`watcher.xlsx.package.validate`).
+adds the package's structural problems (:func:`watcher.xlsx.package.validate`) -- without walking the
+rows of tocsin's own sheets, which the next refresh rewrites anyway (their parts are still checked
+against their size and CRC-32, and what surrounds their rows is checked).
 """
 from __future__ import annotations
 
@@ -40,8 +42,8 @@ def check_workbook(path: Path | str, *, progress: Progress = None) -> CheckResul
     """Validate the job table and compute every job's scorecard; write nothing."""
     path = Path(path)
     try:
-        problems = _package_problems(path)
         pkg = package.Package.open(path)
+        problems = _package_problems(path, pkg.owned)
         owned = {s.casefold() for s in pkg.owned}
         users = [s for s in pkg.sheet_names if s.casefold() not in owned]
         table, outcomes = evaluate_book(path, progress, taken=users)
@@ -52,11 +54,12 @@ def check_workbook(path: Path | str, *, progress: Progress = None) -> CheckResul
     return CheckResult(path, table, laid, problems)
 
 
-def _package_problems(path: Path) -> tuple[str, ...]:
-    """The structural problems of the package; a part the validator cannot even read (a damaged
-    member: the parsers' own exceptions) is one problem, and the jobs are still checked."""
+def _package_problems(path: Path, owned) -> tuple[str, ...]:
+    """The structural problems of the package, not looking at the rows of tocsin's own sheets
+    (``owned``); a part the validator cannot even read (a damaged member: the parsers' own
+    exceptions) is one problem, and the jobs are still checked."""
     try:
-        return tuple(package.validate(path))
+        return tuple(package.validate(path, skip_cells=owned))
     except (ValueError, OSError):
         raise
     except Exception as exc:

@@ -59,6 +59,9 @@ class RefreshReport:
     jobs: tuple[JobReport, ...] = ()
     message: str = ""
     duration_s: float = 0.0
+    written: Any = field(default=None, compare=False)
+    """When tocsin wrote the workbook: the file it left (``watcher.xlsx.package.Fingerprint``: size,
+    mtime_ns and the SHA-256 the writer verified), so the watcher knows its own write when it comes back."""
 
     @property
     def ok(self) -> bool:

@@ -204,8 +204,8 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
     path = Path(path)
     start = time.monotonic()
 
-    def done(status: str, jobs: tuple[JobReport, ...] = (), message: str = "") -> RefreshReport:
-        return RefreshReport(path, status, jobs, message, time.monotonic() - start)
+    def done(status: str, jobs: tuple[JobReport, ...] = (), message: str = "", written=None) -> RefreshReport:
+        return RefreshReport(path, status, jobs, message, time.monotonic() - start, written)
 
     owner = owner_file(path)
     if owner is not None:
@@ -240,11 +240,11 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
         if not any(r.changed for r in rang.values()):
             return done("unchanged", reports, "inputs unchanged since the last refresh")
         new = {n: _with_alert(r, rang.get(n)) for n, r in old.items()}
-        status, msg = _write(path, pkg, [], {**state, "jobs": new}, (), progress)
+        status, msg, written = _write(path, pkg, [], {**state, "jobs": new}, (), progress)
         if status != "refreshed":
             return done(status, reports if status == "failed" else (), msg)
         return done("unchanged", reports, "inputs unchanged since the last refresh; the alert record was "
-                                          "updated")
+                                          "updated", written)
     refreshed_at = dt.datetime.now().replace(microsecond=0)
     new: dict[str, dict] = {n: old[n] for n in disabled if n in old}  # a disabled job keeps its sheets
     sheets: list[Any] = []
@@ -263,11 +263,11 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
     remove = [s for s in pkg.owned if s.casefold() not in keep]
     state["jobs"] = new
     state["version"] = VERSION
-    status, msg = _write(path, pkg, sheets, state, remove, progress)
+    status, msg, written = _write(path, pkg, sheets, state, remove, progress)
     if status != "refreshed":
         return done(status, reports if status == "failed" else (), msg)
     msg = "; ".join(e.message for e in table.errors if not e.job)
-    return done("refreshed", reports, msg)
+    return done("refreshed", reports, msg, written)
 
 
 def _ring(path: Path, outcomes: list[JobOutcome], records: dict[str, dict], old: dict[str, dict],
@@ -291,14 +291,15 @@ def _with_alert(record: dict, rang: Rang | None) -> dict:
 
 
 def _write(path: Path, pkg: Any, sheets: list[Any], state: dict, remove: Any,
-           progress: Progress) -> tuple[str, str]:
-    """The one write of a refresh: ("refreshed", "") or (status, message) of what went wrong."""
+           progress: Progress) -> tuple[str, str, Any]:
+    """The one write of a refresh: ("refreshed", "", the fingerprint the writer verified) or (status,
+    message of what went wrong, None)."""
     if progress:
         progress(f"{path.name}: writing", final=True)   # the last point where it may be abandoned
     try:
-        package.write(path, sheets, state=state, remove=remove, expect=pkg.fingerprint)
+        result = package.write(path, sheets, state=state, remove=remove, expect=pkg.fingerprint)
     except ConcurrentEditError as exc:
-        return "conflict", str(exc)
+        return "conflict", str(exc), None
     except (ValueError, OSError) as exc:
-        return "failed", describe(exc)
-    return "refreshed", ""
+        return "failed", describe(exc), None
+    return "refreshed", "", result.fingerprint

@@ -3,7 +3,7 @@
 A workbook is ready when no owner file says a person has it open, its size, mtime and inode stay the
 same between two looks (the debouncer takes them), and it opens as a complete zip package. This is the
 only part of the watcher's intake that touches the disk, so the debouncer (timing only) can be tested
-with a fake probe.
+with a fake probe. :meth:`FileProbe.is_written` tells tocsin's own write when its save event comes back.
 """
 from __future__ import annotations
 
@@ -13,6 +13,7 @@ from pathlib import Path
 
 from watcher.watch.debounce import Stat
 from watcher.xlsx.names import owner_file
+from watcher.xlsx.replace import digest
 
 __all__ = ["FileProbe"]
 
@@ -43,3 +44,16 @@ class FileProbe:
         except (zipfile.BadZipFile, KeyError, OSError, EOFError, ValueError):
             return False
         return True
+
+    def is_written(self, path: Path, written) -> bool:
+        """True when ``path`` still is the file tocsin wrote: ``written`` (the writer's fingerprint)
+        has its size and mtime, and its SHA-256 is the one the writer verified. The stat rules most
+        saves out at once; the hash makes sure (a save of the same size within one mtime tick)."""
+        try:
+            with open(path, "rb") as fh:
+                st = os.fstat(fh.fileno())
+                if (st.st_size, st.st_mtime_ns) != (written.size, written.mtime_ns):
+                    return False
+                return digest(fh) == (written.sha256, written.size)
+        except OSError:
+            return False

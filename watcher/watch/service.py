@@ -10,8 +10,11 @@ Three roles, three threads of control:
   stable, no owner file says a person has it open, and it opens as a complete zip package;
 * the **refresh worker** (``watcher.watch.worker.RefreshWorker``) refreshes one workbook at a time.
 
-No loops: tocsin's own write changes the file, so it comes back through the debouncer, and the refresh
-answers "unchanged" (its recorded fingerprint matches) without writing. A workbook that changed while
+No loops: tocsin's own write changes the file, so it comes back through the debouncer. The watcher
+keeps the fingerprint of every file it wrote (size, mtime and the SHA-256 the writer verified) and
+recognises that file without refreshing it ("unchanged"; reading a large workbook again only to find it
+unchanged would cost as much as the read of the refresh). Any other save is refreshed, and a refresh
+whose inputs did not change answers "unchanged" without writing. A workbook that changed while
 tocsin computed comes back as "conflict" and is started again. One bad workbook never stops the watcher.
 
 At start every workbook already there goes through the same path with no quiet wait (the refresh skips
@@ -76,6 +79,19 @@ def _load_refresh() -> Callable[..., Any]:
     # (the tests, the benchmark) does not need.
     from watcher.refresh.workbook import refresh_workbook
     return refresh_workbook
+
+
+class _OwnWrite:
+    """The report of a workbook that is the file tocsin itself wrote last: nothing to read or write."""
+
+    status = "unchanged"
+    message = "tocsin's own write; not read again"
+    jobs = ()
+    written = None
+    duration_s = 0.0
+
+    def __init__(self, path: Path) -> None:
+        self.path = path
 
 
 class Watcher:
@@ -156,6 +172,7 @@ class Watcher:
         self._worker: RefreshWorker | None = None
         self._stopped = False
         self._lock = threading.Lock()
+        self._written: dict[Path, Any] = {}  # workbook -> fingerprint of the file tocsin last wrote there
         self.how = ""
 
     # -- life cycle ----------------------------------------------------------------------------------
@@ -163,8 +180,18 @@ class Watcher:
         """Start the worker, the debouncer and the observer; log the startup line; queue the initial pass."""
         refresh = self._refresh if self._refresh is not None else _load_refresh()
         probe = self._probe if self._probe is not None else FileProbe()
+
+        def refresh_unless_own(path: Path, **kwargs: Any) -> Any:
+            with self._lock:
+                written = self._written.pop(path, None)
+            if written is not None and probe.is_written(path, written):
+                with self._lock:
+                    self._written.setdefault(path, written)  # still ours until it changes
+                return _OwnWrite(path)
+            return refresh(path, **kwargs)
+
         self._worker = RefreshWorker(
-            refresh, on_outcome=self._outcome, workers=self._workers,
+            refresh_unless_own, on_outcome=self._outcome, workers=self._workers,
             still_ready=lambda path: probe.owner(path) is None,  # opened while queued? wait again
             on_deferred=lambda path: self._debouncer.submit(path, delay=0.0) if self._debouncer else None,
         )
@@ -289,6 +316,9 @@ class Watcher:
             self._debouncer.submit(target)
 
     def _outcome(self, outcome: Outcome) -> None:
+        if outcome.written is not None:
+            with self._lock:
+                self._written[outcome.path] = outcome.written
         self._log.outcome(outcome)
         if outcome.status in ("conflict", "busy") and self._debouncer is not None:
             # conflict: changed while computing; busy: opened just before the refresh looked. Either

@@ -66,6 +66,7 @@ class Outcome:
     duration_s: float
     jobs: tuple[JobOutcome, ...] = ()
     traceback: str | None = None
+    written: Any = None  # the fingerprint of the file the refresh wrote (size, mtime_ns, sha256), if it wrote
 
     @classmethod
     def from_report(cls, path: Path, report: Any, duration_s: float) -> Outcome:
@@ -91,6 +92,7 @@ class Outcome:
             message=str(getattr(report, "message", "") or ""),
             duration_s=float(reported) if reported is not None else duration_s,
             jobs=jobs,
+            written=getattr(report, "written", None),
         )
 
 

@@ -21,8 +21,9 @@ Public API
     of a requested name (naming it) and :class:`~watcher.xlsx.errors.ConcurrentEditError` when the file no
     longer holds the bytes ``expect`` describes (someone saved while tocsin computed: nothing is
     written; try again later). Returns a :class:`WriteResult`.
-``validate(path)``
-    Structural problems of a package as messages (see :mod:`watcher.xlsx.validate`).
+``validate(path, *, skip_cells=())``
+    Structural problems of a package as messages (see :mod:`watcher.xlsx.validate`); the rows of the
+    sheets in ``skip_cells`` are not walked.
 ``check_writable(path)``
     Raises :class:`~watcher.xlsx.errors.ReadOnlyWorkbookError` for a workbook that is read-only (no write
     bit for anyone, or not writable by the user running tocsin); ``write`` raises it too, before writing.
@@ -263,9 +264,10 @@ class Package:
         return write(self.path, sheets, state=state, remove=remove, expect=self.fingerprint, owned=owned)
 
 
-def validate(path: str | os.PathLike) -> list[str]:
-    """Structural problems of the package at ``path`` (empty when none); see :mod:`watcher.xlsx.validate`."""
-    return check_package(path)
+def validate(path: str | os.PathLike, *, skip_cells: Sequence[str] | frozenset[str] = ()) -> list[str]:
+    """Structural problems of the package at ``path`` (empty when none); see :mod:`watcher.xlsx.validate`.
+    The rows and cells of the sheets named in ``skip_cells`` are not looked at."""
+    return check_package(path, skip_cells=skip_cells)
 
 
 def _still_same(path: Path, expect: Fingerprint, label: str) -> Identity:

@@ -206,17 +206,20 @@ class Source:
         return out
 
 
-def member_problems(zs: ZipSource, ct: ContentTypes, names: list[str] | None = None) -> dict[str, str]:
+def member_problems(zs: ZipSource, ct: ContentTypes, names: list[str] | None = None,
+                    ends: dict[str, tuple[bytes, bytes]] | None = None) -> dict[str, str]:
     """What is wrong with each damaged or hostile member of a package, as messages by member name: its
     data do not inflate to its declared size and CRC-32 (checked as a stream, reading at most one byte
     more than declared), or an XML part declares a document type. Members tocsin only copies are
     checked too, so a bad data sheet is found and named before any reader meets it. ``names``: only
-    these members (default all)."""
+    these members (default all). ``ends``: filled with the first and last 64 KiB of every member."""
     out = {}
     for name in zs.names if names is None else names:
         if name.endswith("/"):
             continue
-        problem, head = zs.check(name)
+        problem, head, tail = zs.check_ends(name, tail=65_536 if ends is not None else 0)
+        if ends is not None:
+            ends[name] = (head, tail)
         if problem is None and _is_xml(ct.of(name), name):
             why = prolog_problem(head)
             problem = f"'{zs.label}': part '{name}' {why}" if why else None

@@ -18,16 +18,21 @@ writer produces. :func:`check_package` lists, as plain messages, what breaks the
   ascending column order within their row and on their row, at most one selected sheet tab overall;
 * custom document properties: unique property ids (>= 2) and names.
 
-An empty list means no problem was found. Worksheets are read with ``iterparse`` and cleared as they go,
-so big sheets do not build a tree.
+An empty list means no problem was found. The rows and cells of a worksheet are checked on its text
+(:mod:`watcher.xlsx.sheetscan`, a megabyte at a time); a sheet the fast look is not sure of is read
+with ``iterparse`` and cleared as it goes, so big sheets do not build a tree. ``skip_cells`` names
+sheets whose rows and cells are not looked at (tocsin's own sheets, for ``tocsin check``): their
+part is still inflated against its size and CRC-32, and what surrounds the rows checked.
 """
 from __future__ import annotations
 
+import io
 import os
 import posixpath
 import re
 import zipfile
 import zlib
+from collections.abc import Collection
 from pathlib import Path
 
 from lxml import etree
@@ -35,6 +40,7 @@ from lxml import etree
 from watcher.xlsx.archive import ZipSource
 from watcher.xlsx.errors import PackageError, SheetNameError
 from watcher.xlsx.opc import CT, NS, REL, ContentTypes, Rels, parse_xml
+from watcher.xlsx.sheetscan import scan_rows, skeleton
 from watcher.xlsx.source import member_problems
 from watcher.xlsx.spec import check_sheet_name
 
@@ -73,26 +79,29 @@ def _is_xml(content_type: str | None, name: str) -> bool:
     return bool(content_type) and (content_type.endswith(_XML_SUFFIX) or name.endswith(".rels"))
 
 
-def check_package(path: str | os.PathLike) -> list[str]:
-    """Structural problems of the package at ``path`` as messages; empty when none were found."""
+def check_package(path: str | os.PathLike, *, skip_cells: Collection[str] = ()) -> list[str]:
+    """Structural problems of the package at ``path`` as messages; empty when none were found. The rows
+    and cells of the sheets named in ``skip_cells`` (ignoring case) are not looked at."""
     path = Path(path)
     try:
         data = path.read_bytes()
     except OSError as exc:
         return [f"'{path.name}' cannot be read: {exc.strerror or exc}"]
     try:
-        return _Checker(data, path.name).run()
+        return _Checker(data, path.name, {s.casefold() for s in skip_cells}).run()
     except PackageError as exc:
         return [str(exc)]
 
 
 class _Checker:
-    def __init__(self, data: bytes, label: str) -> None:
+    def __init__(self, data: bytes, label: str, skip_cells: set[str] = frozenset()) -> None:
         self.label = label
         self.zip = ZipSource(data, label)
         self.problems: list[str] = []
         self.trees: dict[str, etree._Element] = {}
         self.damaged: dict[str, str] = {}
+        self.ends: dict[str, tuple[bytes, bytes]] = {}
+        self.skip_cells = skip_cells
 
     def bad(self, msg: str) -> None:
         self.problems.append(msg)
@@ -108,7 +117,7 @@ class _Checker:
         if ct_name is None:
             return [f"'{self.label}' has no [Content_Types].xml; it is not an Office Open XML package"]
         ct = ContentTypes(self.tree(ct_name))
-        self.damaged = member_problems(zs, ct)
+        self.damaged = member_problems(zs, ct, ends=self.ends)
         for name in zs.names:
             if name in self.damaged:
                 self.bad(self.damaged[name])
@@ -304,57 +313,72 @@ class _Checker:
             last, prev = rank, name
 
     def _worksheet(self, sheet: str, part: str, n_xfs: int, n_dxfs: int) -> bool:
-        """Check one worksheet in a stream (rows are checked and dropped as they end); return whether its
-        tab is selected."""
+        """Check one worksheet; return whether its tab is selected. The rows and cells are checked on
+        the text (or not at all for ``skip_cells``), then what surrounds them element by element; a
+        sheet the fast look is not sure of is walked element by element whole."""
         where = f"sheet '{sheet}' ({part})"
-        selected = False
         if part in self.damaged:  # already said
-            return selected
+            return False
+        if sheet.casefold() in self.skip_cells:
+            rest = skeleton(*self.ends.get(part, (b"", b"")))
+        else:
+            try:
+                rest = scan_rows(self.zip.pieces(part), n_xfs)
+            except PackageError:
+                rest = None
+        if rest is not None:
+            return self._walk(where, io.BytesIO(rest), n_xfs, n_dxfs)
+        with self.zip._zf.open(part) as fh:
+            return self._walk(where, fh, n_xfs, n_dxfs)
+
+    def _walk(self, where: str, fh, n_xfs: int, n_dxfs: int) -> bool:
+        """Check a worksheet in a stream (rows are checked and dropped as they end); return whether its
+        tab is selected."""
+        selected = False
         last_row = 0
         columns: dict[str, int] = {}
         tags = tuple(f"{{{NS.main}}}{t}" for t in ("row", "sheetView", "col", "cfRule"))
-        with self.zip._zf.open(part) as fh:
-            ctx = etree.iterparse(fh, events=("end",), tag=tags, resolve_entities=False, no_network=True,
-                                  huge_tree=False, load_dtd=False)
-            try:
-                for _, el in ctx:
-                    local = el.tag.rsplit("}", 1)[1]
-                    if local == "row":
-                        r = el.get("r")
-                        row = int(r) if r is not None and r.isdigit() else last_row + 1
-                        if row <= last_row:
-                            self.bad(f"{where}: row {row} comes after row {last_row}")
-                            return selected
-                        last_row = row
-                        problem = self._cells(el, row, n_xfs, columns)
-                        if problem:
-                            self.bad(f"{where}: {problem}")
-                            return selected
-                        s = el.get("s")
-                        if s is not None and (not s.isdigit() or int(s) >= n_xfs):
-                            self.bad(f"{where}: row {row} has style {s} but there are {n_xfs} cell formats")
-                        el.clear(keep_tail=True)
-                        parent = el.getparent()
-                        while el.getprevious() is not None:
-                            del parent[0]
-                    elif local == "sheetView":
-                        selected |= el.get("tabSelected") in ("1", "true")
-                    elif local == "col":
-                        s = el.get("style")
-                        if s is not None and (not s.isdigit() or int(s) >= n_xfs):
-                            self.bad(f"{where}: columns {el.get('min')}-{el.get('max')} have style {s} but "
-                                     f"there are {n_xfs} cell formats")
-                    elif el.get("dxfId") is not None:
-                        v = el.get("dxfId")
-                        if not v.isdigit() or int(v) >= n_dxfs:
-                            self.bad(f"{where}: a conditional format uses dxfId {v} but there are {n_dxfs}")
-                root = ctx.root
-            except etree.XMLSyntaxError as exc:
-                self.bad(f"{where}: not well-formed XML ({exc})")
-                return selected
-            except (zipfile.BadZipFile, zlib.error, EOFError, OSError) as exc:
-                self.bad(f"{where}: cannot be read ({exc}); the file is damaged")
-                return selected
+        ctx = etree.iterparse(fh, events=("end",), tag=tags, resolve_entities=False, no_network=True,
+                              huge_tree=False, load_dtd=False)
+        try:
+            for _, el in ctx:
+                local = el.tag.rsplit("}", 1)[1]
+                if local == "row":
+                    r = el.get("r")
+                    row = int(r) if r is not None and r.isdigit() else last_row + 1
+                    if row <= last_row:
+                        self.bad(f"{where}: row {row} comes after row {last_row}")
+                        return selected
+                    last_row = row
+                    problem = self._cells(el, row, n_xfs, columns)
+                    if problem:
+                        self.bad(f"{where}: {problem}")
+                        return selected
+                    s = el.get("s")
+                    if s is not None and (not s.isdigit() or int(s) >= n_xfs):
+                        self.bad(f"{where}: row {row} has style {s} but there are {n_xfs} cell formats")
+                    el.clear(keep_tail=True)
+                    parent = el.getparent()
+                    while el.getprevious() is not None:
+                        del parent[0]
+                elif local == "sheetView":
+                    selected |= el.get("tabSelected") in ("1", "true")
+                elif local == "col":
+                    s = el.get("style")
+                    if s is not None and (not s.isdigit() or int(s) >= n_xfs):
+                        self.bad(f"{where}: columns {el.get('min')}-{el.get('max')} have style {s} but "
+                                 f"there are {n_xfs} cell formats")
+                elif el.get("dxfId") is not None:
+                    v = el.get("dxfId")
+                    if not v.isdigit() or int(v) >= n_dxfs:
+                        self.bad(f"{where}: a conditional format uses dxfId {v} but there are {n_dxfs}")
+            root = ctx.root
+        except etree.XMLSyntaxError as exc:
+            self.bad(f"{where}: not well-formed XML ({exc})")
+            return selected
+        except (zipfile.BadZipFile, zlib.error, EOFError, OSError) as exc:
+            self.bad(f"{where}: cannot be read ({exc}); the file is damaged")
+            return selected
         if root.getroottree().docinfo.doctype:
             self.bad(f"{where}: declares a document type; refused")
         self._order(where, [etree.QName(c).localname for c in root

@@ -4,8 +4,9 @@
 elements in schema order (CT_Worksheet: sheetPr, dimension, sheetViews, sheetFormatPr, cols, sheetData,
 conditionalFormatting, pageMargins, drawing). The cell XML of a table is produced in bulk: each column
 of a chunk of rows is formatted at once (small integer ranges through a lookup table, other numbers
-through one C-level ``%`` call per value), then the pieces of all columns are laid out in one object
-array and joined, so there is no Python call per cell.
+through :func:`~watcher.xlsx.xmlwriter.number_texts`, one C call per column), then the pieces of all
+columns (row numbers, constant markup, number texts) are laid out in one object array and joined, so
+there is no Python call per cell and no string built per cell.
 
 Values:
 
@@ -32,7 +33,7 @@ import numpy as np
 
 from watcher.xlsx.opc import NS
 from watcher.xlsx.spec import MAX_TEXT, Cells, Column, SheetSpec, Table, col_letter
-from watcher.xlsx.xmlwriter import XMLWriter, escape_data, number_text
+from watcher.xlsx.xmlwriter import XMLWriter, escape_data, number_text, number_texts
 
 __all__ = ["CHUNK_ROWS", "date_serials", "escape_text", "style_keys", "worksheet_chunks"]
 
@@ -43,6 +44,7 @@ _MS_PER_DAY = 86_400_000
 _EPOCH_1900 = np.datetime64("1899-12-30", "ms").astype(np.int64)
 _EPOCH_1904 = np.datetime64("1904-01-01", "ms").astype(np.int64)
 _NAT = np.iinfo(np.int64).min
+_TWO_53 = 2.0**53
 
 
 # -- values --------------------------------------------------------------------------------------
@@ -192,46 +194,55 @@ def style_keys(spec: SheetSpec) -> set[tuple[str, bool]]:
 
 
 # -- columns in bulk ---------------------------------------------------------------------------------
-def _numeric_pieces(x: np.ndarray, sid: int, suffix: str) -> list[str] | np.ndarray:
-    """Pieces for a float column: numbers with round-trip precision, blanks for NaN/inf."""
+def _numeric_slots(x: np.ndarray, sid: int, suffix: str, rows: list[str]) -> list:
+    """The cells of a float column after their ``<c r="X``, as slots laid side by side (each a constant
+    or one text per row): the row number, then the cell's markup around the number's text. Numbers have
+    round-trip precision (:func:`~watcher.xlsx.xmlwriter.number_texts`); NaN and infinities are blank
+    cells. Slots cost less than one string made per cell: they are only copied into the chunk's join."""
     pre, post = f'" s="{sid}"><v>', "</v></c>" + suffix
-    blank = f'" s="{sid}"/>' + suffix
+    blank = f'" s="{sid}"/>'
     finite = np.isfinite(x)
     all_finite = bool(finite.all())
     xf = x if all_finite else x[finite]
     if xf.size == 0:
-        return [blank] * len(x)
-    integral = bool(np.all(xf == np.trunc(xf))) and float(np.max(np.abs(xf))) <= 2.0**53
+        return [rows, blank + suffix]
+    integral = bool(np.all(xf == np.trunc(xf))) and float(np.max(np.abs(xf))) <= _TWO_53
     if integral and np.any((xf == 0) & np.signbit(xf)):
         integral = False  # keep -0.0 as written by repr
     if integral:
         lo, hi = int(xf.min()), int(xf.max())
         span = hi - lo + 1
         if span <= 4096 and span * 4 <= len(x) + 16:
-            table = np.array([f"{pre}{k}{post}" for k in range(lo, hi + 1)] + [blank], dtype=object)
+            table = np.array([f"{pre}{k}{post}" for k in range(lo, hi + 1)] + [blank + suffix], dtype=object)
             idx = np.full(len(x), span, dtype=np.intp)
             idx[finite] = (xf - lo).astype(np.intp)
-            return table[idx]
-        fmt = pre + "%d" + post
-    else:
-        fmt = pre + "%r" + post
-    clean = x if all_finite else np.where(finite, x, 0.0)
-    out = list(map(fmt.__mod__, clean.tolist()))
-    if not integral:  # integers among other numbers: '3', not '3.0'
-        whole = np.flatnonzero((clean == np.trunc(clean)) & (np.abs(clean) <= 2.0**53) & finite
-                               & ~((clean == 0) & np.signbit(clean)))
-        if whole.size:
-            fmt_d = pre + "%d" + post
-            for i, text in zip(whole.tolist(), map(fmt_d.__mod__, clean[whole].tolist()), strict=True):
-                out[i] = text
-    if not all_finite:
-        for i in np.flatnonzero(~finite).tolist():
-            out[i] = blank
+            return [rows, table[idx]]
+    texts = number_texts(x if all_finite else np.where(finite, x, 0.0))
+    if all_finite:
+        return [rows, pre, texts, post]
+    gaps = ~finite
+    texts[gaps] = ""
+    before, after = np.full(len(x), pre, dtype=object), np.full(len(x), post, dtype=object)
+    before[gaps], after[gaps] = blank, suffix
+    return [rows, before, texts, after]
+
+
+def _patch(slots: list, idx: np.ndarray, pieces: list[str]) -> list:
+    """``slots`` with the cells at ``idx`` replaced by whole pieces (their suffix included): the first
+    slot (the row number) stays, the second becomes the piece and the others empty."""
+    n = len(slots[0])
+    out = [slots[0]]
+    for s in slots[1:]:
+        arr = np.empty(n, dtype=object)
+        arr[:] = s
+        arr[idx] = ""
+        out.append(arr)
+    out[1][idx] = pieces
     return out
 
 
 class _ColumnWriter:
-    """Makes the pieces of one table column for any row slice."""
+    """Makes the cells of one table column for any row slice."""
 
     def __init__(self, col: Column, styles: _Styles) -> None:
         self.col = col
@@ -250,27 +261,33 @@ class _ColumnWriter:
             else:
                 self.kind = "float"
 
-    def pieces(self, start: int, stop: int, suffix: str) -> list[str] | np.ndarray:
+    def slots(self, start: int, stop: int, suffix: str, rows: list[str]) -> list:
+        """Rows ``start..stop-1`` of the column as slots (see :func:`_numeric_slots`)."""
         col = self.col
         if self.kind == "object":
-            out = self._object_pieces(col.values[start:stop], suffix)
+            out = [rows, self._object_pieces(col.values[start:stop], suffix)]
         else:
             x = self.serials[start:stop] if self.kind == "date" else col.values[start:stop]
-            out = _numeric_pieces(x, self.sid, suffix)
+            out = _numeric_slots(x, self.sid, suffix, rows)
             if self.bad_dates is not None:
                 bad = np.flatnonzero(self.bad_dates[start:stop])
                 if bad.size:
-                    out = list(out)
-                    for i in bad.tolist():
-                        v = col.values[start + i]
-                        out[i] = self.styles.text(self.sid, _iso(v)) + suffix
+                    out = _patch(out, bad, [self.styles.text(self.sid, _iso(col.values[start + i])) + suffix
+                                            for i in bad.tolist()])
         if col.bold is not None:
             idx = np.flatnonzero(col.bold[start:stop])
             if idx.size:
-                out = list(out)
-                for i in idx.tolist():
-                    out[i] = self._one(col.values[start + i], bold=True) + suffix
+                out = _patch(out, idx, [self._one(col.values[start + i], bold=True) + suffix
+                                        for i in idx.tolist()])
         return out
+
+    def pieces(self, start: int, stop: int, suffix: str) -> list[str]:
+        """Rows ``start..stop-1`` as one piece per cell (the text after ``<c r="X1``)."""
+        slots = self.slots(start, stop, suffix, [""] * (stop - start))
+        arr = np.empty((stop - start, len(slots)), dtype=object)
+        for j, s in enumerate(slots):
+            arr[:, j] = s
+        return list(map("".join, arr.tolist()))
 
     def _one(self, value, bold: bool) -> str:
         sid = self.bold_sid if bold else self.sid
@@ -282,9 +299,13 @@ class _ColumnWriter:
         return self.styles.blank(sid) if piece is None else piece
 
     def _object_pieces(self, values, suffix: str) -> list[str]:
-        cache: dict = {}
         sid = self.sid
         blank = self.styles.blank(sid) + suffix
+        if set(map(type, values)) <= {str, type(None)}:  # text and blanks only: a piece per distinct value
+            cache = {v: self.styles.text(sid, v) + suffix for v in set(values) if v is not None}
+            cache[None] = blank
+            return list(map(cache.__getitem__, values))
+        cache: dict = {}
         out = []
         append = out.append
         for v in values:
@@ -351,18 +372,16 @@ def _bulk_rows(active: list[_Band], writers, seg_start: int, seg_stop: int,
             cols.append((band.col + j, w, band))
     letters = [col_letter(c) for c, _, _ in cols]
     suffixes = [f'<c r="{letters[k + 1]}' for k in range(len(cols) - 1)] + ["</row>"]
-    k = len(cols)
     for a in range(seg_start, seg_stop, chunk_rows):
         b = min(seg_stop, a + chunk_rows)
-        rows = list(map(str, range(a + 1, b + 1)))
-        arr = np.empty((b - a, 3 + 2 * k), dtype=object)
-        arr[:, 0] = '<row r="'
-        arr[:, 1] = rows
-        arr[:, 2] = f'"><c r="{letters[0]}'
+        rows = number_texts(np.arange(a + 1, b + 1, dtype=np.float64))
+        slots = ['<row r="', rows, f'"><c r="{letters[0]}']
         for j, (_, w, band) in enumerate(cols):
             off = band.block.first_data_row
-            arr[:, 3 + 2 * j] = rows
-            arr[:, 4 + 2 * j] = w.pieces(a - off, b - off, suffixes[j])
+            slots.extend(w.slots(a - off, b - off, suffixes[j], rows))
+        arr = np.empty((b - a, len(slots)), dtype=object)
+        for j, s in enumerate(slots):
+            arr[:, j] = s
         yield "".join(arr.ravel().tolist())
 
 

@@ -16,7 +16,16 @@ Escaping (XML 1.0, W3C Recommendation, 5th edition, 2008, §2.2 ``Char`` and §2
   ST_Xstring); a literal ``_xHHHH_`` in the text gets its underscore escaped (``_x005F_xHHHH_``) so it
   reads back as itself;
 * numbers take a fast path without any escaping (:func:`number_text`: integers exactly, other doubles
-  with the shortest text that reads back as the same double).
+  with the shortest text that reads back as the same double; :func:`number_texts` the same for a whole
+  array at once).
+
+Formatting numbers in bulk: Python's ``float.__repr__`` (David Gay's shortest round-trip digits) costs
+0.3-0.6 us per full-precision double, most of the time of a million-row sheet. ``orjson`` (a JSON library,
+installed with tocsin; optional) formats a numpy array of doubles in one call with the same shortest
+digits at about a tenth of that. Its text equals ``repr`` character for character where
+1e-4 <= |x| < 1e16 (found on 8 million random doubles; tests/test_xlsx_xmlwriter.py checks 270,000);
+outside that range it spells exponents differently ('1e-7' for '1e-07', '0.00001' for '1e-05'), so
+those values go through ``repr``. The written bytes are therefore the same with or without ``orjson``.
 """
 from __future__ import annotations
 
@@ -24,7 +33,14 @@ import math
 import re
 from collections.abc import Iterable
 
-__all__ = ["DECLARATION", "XMLWriter", "escape_attr", "escape_data", "number_text"]
+import numpy as np
+
+try:
+    import orjson as _orjson
+except ImportError:  # optional: the same texts through repr, only slower
+    _orjson = None
+
+__all__ = ["DECLARATION", "XMLWriter", "escape_attr", "escape_data", "number_text", "number_texts"]
 
 DECLARATION = '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
 _NOT_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\r\ud800-\udfff\ufffe\uffff]")
@@ -71,6 +87,45 @@ def number_text(v: float) -> str | None:
     if v == int(v) and abs(v) <= _TWO_53 and not (v == 0 and math.copysign(1, v) < 0):
         return str(int(v))
     return repr(float(v))
+
+
+def _repr_texts(x: np.ndarray) -> list[str]:
+    if x.dtype.kind == "i":
+        return list(map(int.__repr__, x.tolist()))
+    return list(map(float.__repr__, x.tolist()))
+
+
+def _fast_texts(x: np.ndarray) -> list[str]:
+    """The texts of a contiguous int64 or float64 array: one ``orjson`` call, else ``repr`` each."""
+    if _orjson is not None and x.size:
+        try:
+            return _orjson.dumps(x, option=_orjson.OPT_SERIALIZE_NUMPY)[1:-1].decode("ascii").split(",")
+        except (TypeError, ValueError):  # an array orjson will not take: the slow path below
+            pass
+    return _repr_texts(x)
+
+
+def number_texts(x: np.ndarray) -> np.ndarray:
+    """:func:`number_text` of every element of an array of **finite** doubles, as an object array of
+    str: integers of magnitude up to 2**53 exactly ('3'), every other double as the shortest text that
+    reads back as the same double, character for character ``repr`` ('0.1', '-0.0', '1e-05')."""
+    x = np.ascontiguousarray(x, dtype=np.float64)
+    out = np.empty(x.shape[0], dtype=object)
+    if not x.size:
+        return out
+    whole = (x == np.trunc(x)) & (np.abs(x) <= _TWO_53) & ~((x == 0) & np.signbit(x))
+    if whole.all():
+        out[:] = _fast_texts(x.astype(np.int64))
+        return out
+    out[:] = _fast_texts(x)
+    ax = np.abs(x)
+    odd = np.flatnonzero(((ax < 1e-4) | (ax >= 1e16)) & ~whole)
+    if odd.size and _orjson is not None:  # where orjson spells the exponent unlike repr
+        out[odd] = _repr_texts(x[odd])
+    idx = np.flatnonzero(whole)
+    if idx.size:  # integers among other numbers: '3', not '3.0'
+        out[idx] = _fast_texts(x[idx].astype(np.int64))
+    return out
 
 
 def _attr_text(attrs: Attrs) -> str:

@@ -1,0 +1,24 @@
+"""The small end: a refresh imports only what it needs (measured costs in DEVELOPERS.md, The core):
+no scipy (the Diebold-Mariano tail comes from sheetfns/_ols/tdist.py, checked against scipy in
+tests/test_stats_t.py and tests/test_scores_reference.py), no statsmodels, and no watcher machinery for
+a command that does not watch."""
+from __future__ import annotations
+
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parent.parent
+
+
+def test_refresh_command_imports_no_scipy_no_statsmodels_no_watcher(tmp_path):
+    book = tmp_path / "ferry.xlsx"
+    shutil.copyfile(ROOT / "sample_workbooks" / "island_ferry.xlsx", book)
+    code = ("import sys\nfrom watcher.cli import main\nrc = main(['refresh', sys.argv[1]])\n"
+            "print(rc, sorted(m for m in ('scipy', 'statsmodels', 'watcher.watch.service', 'watchdog') "
+            "if m in sys.modules))")
+    out = subprocess.run([sys.executable, "-c", code, str(book)], capture_output=True, text=True, timeout=300,
+                         cwd=ROOT)
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.strip().splitlines()[-1] == "0 []"
