@@ -216,7 +216,9 @@ def test_json_report(tmp_path, capsys):
     core = core_reference(path, "gdp fall")
     assert good["status"] == "ok" and good["sheet"] == "gdp fall forecast"
     assert good["best_method"] == METHOD_LABELS[core.ev.best]
-    assert good["next_period"] is None  # the data end with an observed quarter: no future row
+    # the data end with an observed quarter (2006Q2, 190 quarters from 1959Q1): tocsin adds the next
+    # quarter end as the future period (DESIGN.md §3)
+    assert good["next_period"] == "2006-09-30"
     assert jobs["broken"]["status"] == "failed" and "`horizon`" in jobs["broken"]["message"]
     assert second["status"] == "failed" and second["ok"] is False and second["jobs"] == []
     assert "does not exist" in second["message"]

@@ -23,6 +23,7 @@ import numpy as np
 from sheetfns import benchmarks, events, logistic, partition, profile, scores
 from sheetfns.checks import same_length
 from sheetfns.errors import InputError
+from sheetfns.scorecard import weekday_terms
 from sheetfns.udf import coerce as c
 from sheetfns.udf.registry import cells, sheet_function, value
 
@@ -117,7 +118,7 @@ def _logit(events: Cells, predictors: Cells, train_rows: Value, horizon: Value, 
         same_length(events=y, dates=d)
     return logistic.forecast(
         y, predictors=named, dates=d,
-        weekday=d is not None and partition.infer_frequency(d) == "daily",
+        weekday=d is not None and weekday_terms(partition.infer_frequency(d)),
         train_size=c.option_int(train_rows, "train_rows", None, minimum=1),
         horizon=c.option_int(horizon, "horizon", 1, minimum=1),
         lags=c.option_int(lags, "lags", 1, minimum=0),

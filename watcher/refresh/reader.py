@@ -177,6 +177,12 @@ class SheetData:
         Sheet row number (1-based) of the first data row.
     backend : {'calamine', 'openpyxl'}
         The parser that read the sheet.
+    newest_first : bool
+        The arrays were turned round to run oldest first (the sheet lists the newest row first; see
+        :mod:`watcher.refresh.periods`): row i of the arrays is sheet row ``first_row + nrows - 1 - i``.
+    added : int
+        Future rows tocsin appended after the data (:mod:`watcher.refresh.periods`); the arrays are
+        ``nrows + added`` long. The sheet holds no cell for them.
     """
 
     book: str
@@ -192,6 +198,8 @@ class SheetData:
     nrows: int
     first_row: int
     backend: str = field(default="calamine")
+    newest_first: bool = False
+    added: int = 0
 
     @property
     def headers(self) -> tuple[str, ...]:
@@ -200,7 +208,8 @@ class SheetData:
 
     def cell(self, key: str, i: int) -> str:
         """The cell reference (``B51``) of row ``i`` of column ``key``."""
-        return f"{self.letters[key]}{self.first_row + i}"
+        row = self.nrows - 1 - i if self.newest_first else i
+        return f"{self.letters[key]}{self.first_row + row}"
 
 
 @dataclass
