@@ -372,3 +372,33 @@ def test_init_then_refresh(tmp_path, capsys):
     code, out, err = run_cli(capsys, "refresh", str(path))
     assert code == 0, err
     check_book(path)
+
+
+def test_init_guesses_dates_only_from_date_cells(tmp_path, capsys):
+    """A sheet whose first column is a plain number column named ``Demand`` (statsmodels' macrodata:
+    real personal consumption expenditure, quarterly 1959-2009, FRED via statsmodels.datasets) has no
+    date column: numbers are never guessed as serial dates, and ``init`` says so."""
+    from statsmodels.datasets import macrodata
+
+    df = macrodata.load_pandas().data
+    rows = [["Demand", "Unemployment"]] + [[float(a), float(b)] for a, b in zip(df.realcons, df.unemp,
+                                                                                strict=True)]
+    path = write_book(tmp_path / "demand.xlsx", {"Demand": rows})
+    code, out, err = run_cli(capsys, "init", str(path), "--sheet", "Demand", "--value", "Demand",
+                             "--event", "fall")
+    assert code == 0, err
+    assert "no column of sheet 'Demand' holds dates, so the job has no date column" in out
+    grid = grid_openpyxl(path, "tocsin")
+    assert grid[1][:5] == ["Demand fall", "Demand", None, "Demand", "fall"]
+    code, out, err = run_cli(capsys, "refresh", "--json", str(path))
+    assert code == 0, err
+    assert json.loads(out)[0]["jobs"][0]["next_period"] == f"row {len(df) + 1}"
+    # a column headed "Date" that holds numbers is no date column either; ISO date text is one
+    text = [["Date", "Week of", "Demand"]] + [[float(i), f"2024-{1 + i // 28:02d}-{1 + i % 28:02d}", float(v)]
+                                              for i, v in enumerate(df.realcons[:100])]
+    path = write_book(tmp_path / "text.xlsx", {"D": text})
+    code, out, err = run_cli(capsys, "init", str(path), "--sheet", "D", "--value", "Demand",
+                             "--event", "rise")
+    assert code == 0, err
+    assert "date column 'Week of' (guessed: its cells are dates)" in out
+    assert grid_openpyxl(path, "tocsin")[1][2] == "Week of"

@@ -384,6 +384,11 @@ class Book:
         tables such as the job table."""
         return [[None if blank(v) else v for v in r] for r in self._grid(sheet).rows]
 
+    def column_cells(self, sheet: str, index: int) -> list[Any]:
+        """The cells of column ``index`` (0-based) below the header row of ``sheet``, as the parser gives
+        them ('' or None for a blank)."""
+        return [r[index] if index < len(r) else None for r in self._grid(sheet).rows[1:]]
+
     def first_row(self, sheet: str) -> int:
         """The 1-based sheet row number of the header row of ``sheet``."""
         return self._grid(sheet).header_row
