@@ -162,8 +162,14 @@ def ref_flag(values, crit: Criterion, k: int) -> list[float]:
         f = float(v)
         return None if math.isnan(f) else f
 
+    def same_(a, b):    # equal at spreadsheet precision (DESIGN.md §5; |a - b| < 2^-48 |a| and |b|)
+        d = abs(a - b)
+        return a == b or (d < abs(a) * 2.0 ** -48 and d < abs(b) * 2.0 ** -48)
+
     def cmp(a, op, b):
-        return {">=": a >= b, "<=": a <= b, ">": a > b, "<": a < b, "=": a == b, "<>": a != b}[op]
+        eq = same_(a, b)
+        return {">=": a > b or eq, "<=": a < b or eq, ">": a > b and not eq, "<": a < b and not eq,
+                "=": eq, "<>": not eq}[op]
 
     cond: list[float] = []
     prev = None
@@ -187,7 +193,7 @@ def ref_flag(values, crit: Criterion, k: int) -> list[float]:
             if prev is None:
                 cond.append(NAN)
             else:
-                ch = x - prev if crit.direction == "rise" else prev - x
+                ch = 0.0 if same_(x, prev) else x - prev if crit.direction == "rise" else prev - x
                 if crit.percent:
                     ch = None if prev == 0 else 100.0 * ch / abs(prev)
                 cond.append(NAN if ch is None else float(cmp(ch, crit.op, crit.threshold)))
