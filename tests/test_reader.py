@@ -387,3 +387,47 @@ def test_openpyxl_written_workbook(tmp_path):
         data = read_sheet(tmp_path / "o.xlsx", "Log", ["Flag"], date_column="Date", backend=backend)
         np.testing.assert_array_equal(data.columns["Flag"], [1.0, np.nan])
         assert data.warnings == ("B3: 'n/a' read as missing",)
+
+
+@pytest.mark.parametrize("bulk", [True, False])
+def test_vectorised_date_column_matches_the_cell_by_cell_rules(bulk, monkeypatch):
+    """The date column is converted in bulk (pandas for date cells, numpy for serial numbers); the
+    result is the cell-by-cell rule of watcher.refresh.cells on every kind of cell (invented cells:
+    dates and date-times with sub-second noise as parsers give them, serials, ISO text, junk, blanks)."""
+    from watcher.refresh import columns
+    from watcher.refresh.cells import serial_stamp, text_stamp
+    from watcher.refresh.columns import dates_of
+
+    monkeypatch.setattr(columns, "_use_pandas", lambda cells: bulk)     # pandas, or the cell loop
+
+    rng = np.random.default_rng(5)
+    start = dt.datetime(1900, 3, 1)
+    col: list = []
+    for i in range(3000):
+        kind = i % 7
+        stamp = start + dt.timedelta(days=float(rng.uniform(0, 60000)))
+        col.append([stamp, stamp.date(), stamp.replace(microsecond=499_999 + i % 2),
+                    float(rng.uniform(0, 80000)) if i % 3 else int(rng.integers(1, 80000)),
+                    stamp.date().isoformat(), ["n/a", "", None, True][i % 4], 1e12][kind])
+
+    def one(v):                     # the cell-by-cell rule, to the nearest second (half up)
+        if isinstance(v, bool) or v is None or (isinstance(v, str) and not v.strip()):
+            return None
+        if isinstance(v, (int, float)):
+            v = serial_stamp(v)
+        elif isinstance(v, str):
+            v = text_stamp(v)
+        if v is None:
+            return None
+        if not isinstance(v, dt.datetime):
+            v = dt.datetime(v.year, v.month, v.day)
+        up = np.timedelta64(int(v.microsecond >= 500_000), "s")
+        return np.datetime64(v.replace(microsecond=0), "s") + up
+
+    got, msgs = dates_of(col, "A", 2, lambda: False, max_warnings=3)
+    want = np.array([one(v) or np.datetime64("NaT") for v in col], dtype="datetime64[s]")
+    assert (np.isnat(got) == np.isnat(want)).all()
+    assert (got[~np.isnat(got)] == want[~np.isnat(want)]).all()
+    bad = sum(1 for v in col if one(v) is None and not (v is None or v == ""))
+    assert msgs[0].startswith("date column A: ") and msgs[-1] == (
+        f"... and {bad - 3:,} more cells in column A is not a date (read as missing)")
