@@ -384,4 +384,5 @@ def flag(values: Any, criterion: str | Criterion, min_run: int = 1) -> np.ndarra
     x, text = _coerce(values)
     if x.size == 0:
         raise InputError("`values` must not be empty; got 0 rows", argument="values", value=values)
-    return _hold_for(_condition(crit, x, text), k)
+    # a run longer than the series never holds: k beyond n + 1 says no more (and fits numpy's integers)
+    return _hold_for(_condition(crit, x, text), min(k, x.size + 1))

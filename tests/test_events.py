@@ -277,3 +277,11 @@ def test_all_missing_gives_all_nan_not_an_error():
 def test_spreadsheet_column_shape_is_accepted():
     # a one-column range arrives as a list of one-element rows
     assert same(flag([[1.0], [None], ["alarm"]], ">0"), [1, NAN, NAN])
+
+
+def test_a_run_longer_than_the_series_never_holds():
+    # a min_run beyond the data (even beyond numpy's integers, as a spreadsheet cell may hold) is NaN
+    # everywhere, as min_run = n + 1 is
+    values = [1.0, 2.0, None, 3.0]
+    assert same(flag(values, ">0", min_run=10**30), flag(values, ">0", min_run=5))
+    assert np.isnan(flag(values, ">0", min_run=5)).all()

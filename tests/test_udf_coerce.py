@@ -206,6 +206,8 @@ def test_criterion_text():
     assert c.criterion_text(">=1150") == ">=1150"
     with pytest.raises(InputError, match="`criterion` is required"):
         c.criterion_text(None)
+    with pytest.raises(InputError, match="`criterion` must be a finite number"):
+        c.criterion_text(float("inf"))            # a cell holding an overflowed number
 
 
 # ---------------------------------------------------------------- results and errors

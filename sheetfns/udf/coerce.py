@@ -373,6 +373,9 @@ def criterion_text(value: Any, name: str = "criterion") -> str:
     if isinstance(value, (bool, np.bool_)):
         return "=1" if value else "=0"
     if isinstance(value, (int, float, np.number)):
+        if not np.isfinite(float(value)):
+            raise InputError(f"`{name}` must be a finite number or a rule such as \">=1150\"; got "
+                             f"{_show(value)}")
         return f"={float(value)!r}" if float(value) != int(value) else f"={int(value)}"
     if not isinstance(value, str):
         raise InputError(f"`{name}` must be text such as \">=1150\"; got {_show(value)}")
