@@ -58,6 +58,7 @@ class JobOutcome:
     notes: tuple[str, ...] = ()  # what the forecast sheet's notes say of the data (the warnings first)
     warnings: tuple[str, ...] = ()  # the notes that warn (cells read as missing, gaps, holidays, ...)
     unchanged: bool = False  # inputs as recorded at the last refresh: not recomputed, sheets kept
+    source: Any = None  # the key of the job's read (watcher.refresh.parts.source_key), kept in the state
     blocked: bool = False  # no sheet of its own is written (a user's sheet, or the name is taken)
 
 
