@@ -15,6 +15,12 @@ spreadsheet users already type into COUNTIF-style functions::
 
 Keywords and text are case-insensitive; spaces around tokens are ignored. ``=TRUE`` / ``=FALSE`` compare
 with 1 / 0, because TRUE/FALSE cells count as 1/0.
+
+Numbers are compared as a spreadsheet compares them (DESIGN.md §5): two numbers that agree to about 15
+significant digits are equal (:func:`approx_equal`), in every comparison (``=``, ``<>``, ``<``, ``<=``,
+``>``, ``>=``), and a change between two such numbers is exactly 0. So 0.1 + 0.2 matches ``=0.3``, and
+4.0 -> 3.8 is a fall of exactly 5 % (``fall%>5`` is 0, ``fall%>=5`` is 1), as the same cells give in
+LibreOffice (``tests/test_events_libreoffice.py`` checks every boundary case against it).
 """
 from __future__ import annotations
 
@@ -27,7 +33,15 @@ import numpy as np
 from sheetfns.checks import as_int
 from sheetfns.errors import CriterionError, InputError
 
-__all__ = ["Criterion", "parse_criterion", "flag"]
+__all__ = ["Criterion", "parse_criterion", "flag", "change", "approx_equal", "SPREADSHEET_EPSILON"]
+
+SPREADSHEET_EPSILON = 2.0 ** -48
+"""The relative difference (about 3.6e-15) below which two numbers are equal, as LibreOffice Calc's
+``rtl::math::approxEqual`` decides (recalled from memory; checked against LibreOffice by the tests):
+|a - b| < |a| 2^-48 and |a - b| < |b| 2^-48. That is agreement to about 15 significant digits, the
+precision spreadsheets show and compare at; a tolerance relative to the magnitude, rather than
+rounding both sides to 15 digits, never splits two neighbouring doubles that straddle a rounding
+boundary."""
 
 _OPS = (">=", "<=", "<>", ">", "<", "=")
 _NUMBER = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
@@ -225,24 +239,38 @@ def _to_float(v: Any) -> Any:
         return _BAD
 
 
+def approx_equal(a: Any, b: Any) -> np.ndarray:
+    """Element-wise: ``a`` and ``b`` are equal as a spreadsheet decides (see :data:`SPREADSHEET_EPSILON`).
+    Zero equals only zero; NaN equals nothing.
+
+    >>> [bool(approx_equal(a, b)) for a, b in ((0.1 + 0.2, 0.3), (1.0, 1.0 + 1e-14), (0.0, 1e-300))]
+    [True, False, False]
+    """
+    a = np.asarray(a, dtype=float)
+    b = np.asarray(b, dtype=float)
+    with np.errstate(invalid="ignore", over="ignore"):
+        d = np.abs(a - b)
+        return (a == b) | ((d < np.abs(a) * SPREADSHEET_EPSILON) & (d < np.abs(b) * SPREADSHEET_EPSILON))
+
+
 def _compare(x: np.ndarray, op: str, c: float) -> np.ndarray:
+    eq = approx_equal(x, c)
     with np.errstate(invalid="ignore"):
         if op == ">=":
-            return x >= c
+            return (x > c) | eq
         if op == "<=":
-            return x <= c
+            return (x < c) | eq
         if op == ">":
-            return x > c
+            return (x > c) & ~eq
         if op == "<":
-            return x < c
+            return (x < c) & ~eq
         if op == "=":
-            return x == c
-        return x != c
+            return eq
+        return ~eq
 
 
 def _condition(crit: Criterion, x: np.ndarray, text: np.ndarray | None) -> np.ndarray:
     """The condition per row as 1.0 / 0.0 / NaN (NaN: cannot be decided)."""
-    n = x.size
     if crit.kind == "text":
         out = np.where(np.isnan(x), np.nan, 0.0)          # numbers and TRUE/FALSE are not the text
         if text is not None:
@@ -253,19 +281,46 @@ def _condition(crit: Criterion, x: np.ndarray, text: np.ndarray | None) -> np.nd
         return out
     if crit.kind == "compare":
         return np.where(np.isnan(x), np.nan, _compare(x, crit.op, crit.threshold).astype(float))
-    # change against the previous observed value
+    # change against the previous observed value, signed for the direction
+    size = _change(x, crit.percent)
+    if crit.direction == "fall":
+        size = -size
+    return np.where(np.isnan(size), np.nan, _compare(size, crit.op, crit.threshold).astype(float))
+
+
+def _change(x: np.ndarray, percent: bool) -> np.ndarray:
+    n = x.size
     obs = ~np.isnan(x)
     idx = np.where(obs, np.arange(n), -1)
     last = np.maximum.accumulate(idx)                     # last observed at or before t
     prev_idx = np.empty(n, dtype=np.int64)
-    prev_idx[0] = -1
+    prev_idx[:1] = -1
     prev_idx[1:] = last[:-1]                              # last observed strictly before t
     prev = np.where(prev_idx >= 0, x[np.maximum(prev_idx, 0)], np.nan)
-    change = x - prev if crit.direction == "rise" else prev - x
-    if crit.percent:
-        with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(over="ignore", invalid="ignore"):
+        change = x - prev
+    change[approx_equal(x, prev)] = 0.0                   # no change at spreadsheet precision
+    if percent:
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             change = np.where(prev == 0, np.nan, 100.0 * change / np.abs(prev))
-    return np.where(np.isnan(change), np.nan, _compare(change, crit.op, crit.threshold).astype(float))
+    return change
+
+
+def change(values: Any, *, percent: bool = False) -> np.ndarray:
+    """The change of each row against the previous observed value, as the change rules measure it.
+
+    ``x[t] - x[p]`` (``percent``: ``100 (x[t] - x[p]) / |x[p]|``, NaN where x[p] is 0), x[p] the last
+    observed value before t (interior blanks skipped; NaN for the first observation and for blank rows);
+    0 where the two values are equal at spreadsheet precision (:func:`approx_equal`). Text and blank
+    cells are missing. ``rise>c`` is ``change > c`` and ``fall>c`` is ``-change > c``.
+
+    >>> change([4.0, 3.8, None, 4.18], percent=True).round(6).tolist()
+    [nan, -5.0, nan, 10.0]
+    >>> change([0.3, 0.1 + 0.2]).tolist()
+    [nan, 0.0]
+    """
+    x, _ = _coerce(values)
+    return _change(x, percent)
 
 
 def _hold_for(cond: np.ndarray, k: int) -> np.ndarray:
@@ -329,4 +384,5 @@ def flag(values: Any, criterion: str | Criterion, min_run: int = 1) -> np.ndarra
     x, text = _coerce(values)
     if x.size == 0:
         raise InputError("`values` must not be empty; got 0 rows", argument="values", value=values)
-    return _hold_for(_condition(crit, x, text), k)
+    # a run longer than the series never holds: k beyond n + 1 says no more (and fits numpy's integers)
+    return _hold_for(_condition(crit, x, text), min(k, x.size + 1))

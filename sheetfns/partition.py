@@ -1,9 +1,12 @@
 """Training / validation split of a series, by a count of periods or by a first validation date.
 
 Also the calendar facts other parts need: the frequency of a date column (:func:`infer_frequency`),
-and the job table's defaults derived from it (:func:`default_season`, :func:`default_cycle`,
-DESIGN.md §7). Dates are checked here once: unsorted or duplicate dates are errors that name the first
-offending rows (1-based positions in the series), gaps in a regular series are reported, not refused.
+the periods that follow it (:func:`next_periods`), its time order (:func:`time_order`: oldest first,
+or newest first as exports often are), and the job table's defaults derived from the frequency
+(:func:`default_season`, :func:`default_cycle`, DESIGN.md §7). Dates are checked here once: unsorted or
+duplicate dates are errors that name the first offending rows (1-based positions in the series), gaps
+in a regular series are reported, not refused (for business days a missing weekday is a holiday).
+The calendar arithmetic itself is :mod:`sheetfns._calendar`.
 
 A series of n rows is cut into three consecutive periods::
 
@@ -22,15 +25,19 @@ from typing import Any
 
 import numpy as np
 
-from sheetfns.checks import as_events, last_observed
+from sheetfns._calendar import FREQUENCIES, UNITS, detect, following, missing_business_days, steps
+from sheetfns.checks import as_events, as_int, last_observed
 from sheetfns.errors import InputError, PartitionError
 
-__all__ = ["Gap", "Split", "split", "as_dates", "infer_frequency", "default_season", "default_cycle"]
+__all__ = ["FREQUENCIES", "UNITS", "Gap", "Split", "split", "as_dates", "infer_frequency", "next_periods",
+           "time_order", "default_season", "default_cycle"]
 
-_DAY = np.timedelta64(1, "D")
-_SEASON = {"daily": 7, "weekly": 52, "monthly": 12, "quarterly": 4}
-_CYCLE = {"daily": 365.25, "weekly": 52.18, "monthly": 12.0}
-_UNIT = {"daily": "day", "weekly": "week", "monthly": "month", "quarterly": "quarter"}
+_SEASON = {"daily": 7, "business": 5, "weekly": 52, "monthly": 12, "quarterly": 4}
+# Business days count calendar days on the logistic model's time axis (their median step is one
+# day), so a year is 365.25 of them as for daily data.
+_CYCLE = {"daily": 365.25, "business": 365.25, "weekly": 52.18, "monthly": 12.0}
+_IRREGULAR = ("the dates are irregular (not hourly, daily, business days, weekly, monthly, quarterly or "
+              "yearly)")
 DEFAULT_VALIDATION_SHARE = 0.2
 
 
@@ -58,9 +65,10 @@ class Split:
         All rows (``train_size + valid_size + future_size``).
     first_valid_date, last_observed_date : Timestamp or None
     frequency : str or None
-        ``'daily'``, ``'weekly'``, ``'monthly'``, ``'quarterly'`` or None (see :func:`infer_frequency`).
+        One of :data:`FREQUENCIES` or None (see :func:`infer_frequency`).
     gaps : tuple of Gap
-        Holes in a regular date series (reported, not an error).
+        Holes in a regular date series (reported, not an error); for business days, the weekdays
+        without a row (holidays).
     train_events, valid_events, train_observed, valid_observed : int or None
         Events and observed (non-blank) rows per period, when ``events`` was given.
     notes : tuple of str
@@ -159,88 +167,138 @@ def as_dates(values: Any, name: str = "dates") -> np.ndarray:
     return arr
 
 
+_SORT_HINT = "sort the rows oldest first"
+
+
+def _order(d: np.ndarray, name: str) -> int:
+    """+1 for strictly increasing dates, -1 for strictly decreasing ones, else a PartitionError that
+    names the first pair of rows out of that order."""
+    if d.size < 2:
+        return 1
+    step = np.diff(d)
+    zero = np.timedelta64(0, "us")
+    sign = 1 if step[0] > zero else -1
+    bad = np.flatnonzero(step <= zero if sign > 0 else step >= zero)
+    if not bad.size:
+        return sign
+    i = int(bad[0]) + 1
+    if d[i] == d[i - 1]:
+        raise PartitionError(f"`{name}` has duplicate dates: rows {i} and {i + 1} are both "
+                             f"{_show_date(d[i])}", argument=name, value=d[i], location=i + 1)
+    way = "earlier" if sign > 0 else "later"
+    first = "oldest" if sign > 0 else "newest"
+    raise PartitionError(f"`{name}` dates must run in one direction (they start {first} first); row "
+                         f"{i + 1} ({_show_date(d[i])}) is {way} than row {i} ({_show_date(d[i - 1])}): "
+                         f"{_SORT_HINT}", argument=name, value=d[i], location=i + 1)
+
+
 def _check_order(d: np.ndarray, name: str) -> None:
-    if d.size < 2:
-        return
-    bad = np.flatnonzero(d[1:] <= d[:-1])
-    if bad.size:
-        i = int(bad[0]) + 1
-        if d[i] == d[i - 1]:
-            raise PartitionError(f"`{name}` has duplicate dates: rows {i} and {i + 1} are both "
-                                 f"{_show_date(d[i])}", argument=name, value=d[i], location=i + 1)
-        raise PartitionError(f"`{name}` dates must be in increasing order; row {i + 1} "
-                             f"({_show_date(d[i])}) is earlier than row {i} ({_show_date(d[i - 1])})",
-                             argument=name, value=d[i], location=i + 1)
+    if _order(d, name) < 0:
+        raise PartitionError(f"`{name}` dates must be in increasing order; they run newest first (row 2, "
+                             f"{_show_date(d[1])}, is earlier than row 1, {_show_date(d[0])}): "
+                             f"{_SORT_HINT}", argument=name, value=d[1], location=2)
 
 
-def _month_parts(d: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    days = d.astype("datetime64[D]")
-    months = d.astype("datetime64[M]")
-    first = months.astype("datetime64[D]")
-    day = (days - first).astype(np.int64) + 1
-    length = ((months + 1).astype("datetime64[D]") - first).astype(np.int64)
-    tod = (d - days).astype(np.int64)
-    return months.astype(np.int64), day, length, tod
+def time_order(dates: Any) -> int:
+    """The time order of a date column: +1 when the dates strictly increase (oldest first), -1 when
+    they strictly decrease (newest first, as many exports list them; DESIGN.md §3 reads those in time
+    order).
 
+    Raises
+    ------
+    PartitionError
+        Any other order: duplicate dates, or dates that turn back. ``location`` is the 1-based row of
+        the second date of the first pair at fault; the message names both rows and says to sort the
+        rows oldest first.
 
-def _steps(d: np.ndarray, freq: str) -> np.ndarray:
-    """Steps between consecutive dates in periods of ``freq``."""
-    if freq in ("daily", "weekly"):
-        base = _DAY * (1 if freq == "daily" else 7)
-        return (np.diff(d) // base).astype(np.int64)
-    months = d.astype("datetime64[M]").astype(np.int64)
-    return np.diff(months) // (1 if freq == "monthly" else 3)
-
-
-def _frequency(d: np.ndarray) -> str | None:
-    if d.size < 2:
-        return None
-    diffs = np.diff(d)
-    if (diffs <= np.timedelta64(0)).any():
-        return None
-    for freq, base in (("daily", _DAY), ("weekly", 7 * _DAY)):
-        if not (diffs % base).any() and np.mean(diffs == base) >= 0.5:
-            return freq
-    months, day, length, tod = _month_parts(d)
-    anchored = (day == np.minimum(day[0], length)).all() or (day == length).all()
-    if not anchored or (tod != tod[0]).any():
-        return None
-    dm = np.diff(months)
-    if not (dm % 3).any() and np.mean(dm == 3) >= 0.5:
-        return "quarterly"
-    if np.mean(dm == 1) >= 0.5:
-        return "monthly"
-    return None
+    Examples
+    --------
+    >>> import datetime as dt
+    >>> time_order([dt.date(2024, 3, 3), dt.date(2024, 3, 2), dt.date(2024, 3, 1)])
+    -1
+    """
+    return _order(as_dates(dates), "dates")
 
 
 def infer_frequency(dates: Any) -> str | None:
-    """The frequency of a date column: ``'daily'``, ``'weekly'``, ``'monthly'``, ``'quarterly'``,
-    or None when the dates are irregular or of another frequency (hourly, yearly, ...).
+    """The frequency of a date column: one of :data:`FREQUENCIES` (``'hourly'``, ``'daily'``,
+    ``'business'``, ``'weekly'``, ``'monthly'``, ``'quarterly'``, ``'yearly'``), or None when the dates
+    are irregular or of another frequency.
 
     A series has a frequency F when every step between consecutive dates is a whole number of F's
-    periods and at least half of the steps are exactly one period; gaps are allowed. Monthly and
-    quarterly dates must fall on the same day of the month (clamped to the month's length, or all
-    on month ends) at the same time of day. Fewer than two dates, or dates not strictly increasing,
-    give None.
+    periods and at least half of the steps are exactly one period; gaps are allowed. Business days are
+    dates on Monday to Friday only (one time of day) with at least one step across a weekend: the
+    weekend is no gap, a missing weekday is a holiday. Monthly, quarterly and yearly dates must fall on
+    the same day of the month (clamped to the month's length, or all on month ends) at the same time
+    of day. Fewer than two dates, or dates not strictly increasing, give None.
 
     Examples
     --------
     >>> import datetime as dt
     >>> infer_frequency([dt.date(2024, 1, 31), dt.date(2024, 2, 29), dt.date(2024, 3, 31)])
     'monthly'
+    >>> infer_frequency([dt.date(2024, 3, 7), dt.date(2024, 3, 8), dt.date(2024, 3, 11)])
+    'business'
     """
-    return _frequency(as_dates(dates))
+    return detect(as_dates(dates))
+
+
+def next_periods(dates: Any, freq: str | None, k: int) -> np.ndarray:
+    """The ``k`` periods that follow the last date at the data's own frequency, as ``datetime64[us]``.
+
+    Hourly, daily and weekly periods add 1 hour, 1 day or 7 days; business days skip the weekend
+    (after a Friday comes the Monday); months, quarters and years keep the data's day of the month,
+    clamped to the month's length (or the month end when every date is a month end), and the time of
+    day.
+
+    Parameters
+    ----------
+    dates : sequence of dates
+        Strictly increasing.
+    freq : str or None
+        One of :data:`FREQUENCIES`; None: :func:`infer_frequency` of ``dates``.
+    k : int
+        How many periods (>= 0).
+
+    Raises
+    ------
+    PartitionError
+        The dates are unsorted, or have no frequency (irregular): their next period is unknown.
+
+    Examples
+    --------
+    >>> import datetime as dt
+    >>> [str(d)[:10] for d in next_periods([dt.date(2024, 3, 7), dt.date(2024, 3, 8)], "business", 2)]
+    ['2024-03-11', '2024-03-12']
+    >>> [str(d)[:10] for d in next_periods([dt.date(2024, 1, 31), dt.date(2024, 2, 29)], None, 2)]
+    ['2024-03-31', '2024-04-30']
+    """
+    d = as_dates(dates)
+    k = as_int(k, "k", minimum=0)
+    if d.size == 0:
+        raise InputError("`dates` must hold at least one date", argument="dates", value=dates)
+    _check_order(d, "dates")
+    if freq is None:
+        freq = detect(d)
+        if freq is None:
+            raise PartitionError(f"`dates` have no regular frequency, so their next period is unknown: "
+                                 f"{_IRREGULAR}", argument="dates", value=None)
+    if freq not in FREQUENCIES:
+        raise InputError(f"`freq` must be one of {', '.join(FREQUENCIES)}; got {freq!r}", argument="freq",
+                         value=freq)
+    return following(d, freq, k)
 
 
 def default_season(freq: str | None) -> int:
-    """The seasonal-naive period for a frequency (DESIGN.md §7): 7 daily, 52 weekly, 12 monthly,
-    4 quarterly, 1 otherwise."""
+    """The seasonal-naive period for a frequency (DESIGN.md §3, §7): 7 daily, 5 business days, 52
+    weekly, 12 monthly, 4 quarterly, 1 otherwise."""
     return _SEASON.get(freq or "", 1)
 
 
 def default_cycle(freq: str | None) -> float | None:
-    """The Fourier period of the logistic model for a frequency (DESIGN.md §7): 365.25 daily,
-    52.18 weekly, 12 monthly, None otherwise."""
+    """The Fourier period of the logistic model for a frequency (DESIGN.md §7): 365.25 daily and for
+    business days (the model's time axis counts their calendar days), 52.18 weekly, 12 monthly, None
+    otherwise."""
     return _CYCLE.get(freq or "")
 
 
@@ -248,10 +306,27 @@ def _gaps(d: np.ndarray, freq: str | None) -> tuple[Gap, ...]:
     if freq is None or d.size < 2:
         return ()
     import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
-    steps = _steps(d, freq)
-    where = np.flatnonzero(steps > 1)
+    step = steps(d, freq)
+    where = np.flatnonzero(step > 1)
     return tuple(Gap(row=int(i) + 2, before=pd.Timestamp(d[i]), after=pd.Timestamp(d[i + 1]),
-                     missing=int(steps[i]) - 1) for i in where)
+                     missing=int(step[i]) - 1) for i in where)
+
+
+def _gap_note(d: np.ndarray, freq: str, gaps: tuple[Gap, ...]) -> str:
+    """One sentence on the gaps: for business days the count of missing weekdays (holidays) and the
+    first few; otherwise the count and the first gap."""
+    missing = sum(x.missing for x in gaps)
+    if freq == "business":
+        total, first = missing_business_days(d)
+        shown = ", ".join(str(x) for x in first) + (", ..." if total > first.size else "")
+        return (f"{total} business day{'s' * (total > 1)} (Monday to Friday) between the first and the "
+                f"last date {'have' if total > 1 else 'has'} no row, read as "
+                f"holiday{'s' * (total > 1)}: {shown}")
+    g = gaps[0]
+    unit = UNITS[freq]
+    return (f"{len(gaps)} gap{'s' * (len(gaps) > 1)} in the {freq} dates ({missing} missing "
+            f"{unit}{'s' * (missing > 1)}); the first between row {g.row - 1} "
+            f"({_show_date(d[g.row - 2])}) and row {g.row} ({_show_date(d[g.row - 1])})")
 
 
 # ---------------------------------------------------------------- the split
@@ -383,18 +458,13 @@ def split(index: Any, validation: Any = None, *, events: Any = None) -> Split:
     first_date = last_date = None
     if dates is not None:
         import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
-        freq = _frequency(dates)
+        freq = detect(dates)
         gaps = _gaps(dates, freq)
         first_date, last_date = pd.Timestamp(dates[train]), pd.Timestamp(dates[n_obs - 1])
         if freq is None:
-            notes.append("the dates are irregular (not daily, weekly, monthly or quarterly)")
+            notes.append(_IRREGULAR)
         elif gaps:
-            g = gaps[0]
-            missing = sum(x.missing for x in gaps)
-            notes.append(f"{len(gaps)} gap{'s' * (len(gaps) > 1)} in the {freq} dates ({missing} "
-                         f"missing {_UNIT[freq]}{'s' * (missing > 1)}); the first between row "
-                         f"{g.row - 1} ({_show_date(dates[g.row - 2])}) and row {g.row} "
-                         f"({_show_date(dates[g.row - 1])})")
+            notes.append(_gap_note(dates, freq, gaps))
     counts: dict[str, int | None] = dict.fromkeys(
         ("train_events", "valid_events", "train_observed", "valid_observed"))
     if ev is not None:

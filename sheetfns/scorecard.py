@@ -238,15 +238,17 @@ values near 1e154 and beyond overflow and leave the linear algebra with infiniti
 
 
 def weekday_terms(frequency: str | None) -> bool:
-    """Whether the logistic model gets weekday indicators: daily data only (weekly patterns are the
-    rule in daily operational data; common practice), with no setting to switch them.
+    """Whether the logistic model gets weekday indicators: daily data and business days only (weekly
+    patterns are the rule in daily operational data; common practice), with no setting to switch them.
+    Business days get Tuesday to Friday against Monday (DESIGN.md §3): the design matrix makes a term
+    for each weekday the data hold.
 
     ``frequency`` is :func:`sheetfns.partition.infer_frequency` of the dates (None without dates).
 
-    >>> weekday_terms("daily"), weekday_terms("weekly"), weekday_terms(None)
-    (True, False, False)
+    >>> weekday_terms("daily"), weekday_terms("business"), weekday_terms("weekly"), weekday_terms(None)
+    (True, True, False, False)
     """
-    return frequency == "daily"
+    return frequency in ("daily", "business")
 
 
 def model_values(values: Any) -> np.ndarray | None:

@@ -37,7 +37,7 @@ from sheetfns._ols.normal import OLSFit
 from sheetfns._ols.tdist import t_cdf
 from sheetfns.checks import as_int, as_series, last_observed
 from sheetfns.errors import InputError
-from sheetfns.events import Criterion, parse_criterion
+from sheetfns.events import Criterion, approx_equal, change, parse_criterion
 from sheetfns.events import _coerce as _read_column  # the reading of a column events.flag uses
 from sheetfns.logistic import parse_refit
 
@@ -116,15 +116,7 @@ def quantity(values: Any, criterion: str | Criterion) -> tuple[np.ndarray, str]:
     x = _numeric(values)
     if crit.kind == "compare":
         return x, "value"
-    obs = ~np.isnan(x)
-    seen = np.maximum.accumulate(np.where(obs, np.arange(x.size), -1))
-    prev_idx = np.r_[-1, seen[:-1]]                      # last observed strictly before t
-    prev = np.where(prev_idx >= 0, x[np.maximum(prev_idx, 0)], np.nan)
-    change = x - prev
-    if not crit.percent:
-        return change, "change"
-    with np.errstate(divide="ignore", invalid="ignore"):
-        return np.where(prev == 0, np.nan, 100.0 * change / np.abs(prev)), "percent change"
+    return change(x, percent=crit.percent), "percent change" if crit.percent else "change"
 
 
 def _event_side(crit: Criterion) -> tuple[float, float, bool]:
@@ -316,5 +308,6 @@ def _probability(mean: np.ndarray, scale: np.ndarray, dof: np.ndarray, side: flo
     point = ok & (scale == 0)
     if point.any():
         d = side * (mean[point] - cut)
-        prob[point] = np.where(d > 0, 1.0, np.where((d == 0) & (not strict), 1.0, 0.0))
+        tie = approx_equal(mean[point], cut)               # equal as a spreadsheet decides
+        prob[point] = np.where(tie, 0.0 if strict else 1.0, np.where(d > 0, 1.0, 0.0))
     return prob

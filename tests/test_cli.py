@@ -218,7 +218,9 @@ def test_json_report(tmp_path, capsys):
     # 2 falls of real GDP in the 38 validation quarters: too few to rank, so no method is named
     assert core.ev.best is None and good["best_method"] is None
     assert good["message"] == core.ev.verdict and good["message"].startswith("Too few events to rank")
-    assert good["next_period"] is None  # the data end with an observed quarter: no future row
+    # the data end with an observed quarter (2006Q2, 190 quarters from 1959Q1): tocsin adds the next
+    # quarter end as the future period (DESIGN.md §3)
+    assert good["next_period"] == "2006-09-30"
     assert jobs["broken"]["status"] == "failed" and "`horizon`" in jobs["broken"]["message"]
     assert second["status"] == "failed" and second["ok"] is False and second["jobs"] == []
     assert "does not exist" in second["message"]
@@ -396,3 +398,33 @@ def test_init_then_refresh(tmp_path, capsys):
     code, out, err = run_cli(capsys, "refresh", str(path))
     assert code == 0, err
     check_book(path)
+
+
+def test_init_guesses_dates_only_from_date_cells(tmp_path, capsys):
+    """A sheet whose first column is a plain number column named ``Demand`` (statsmodels' macrodata:
+    real personal consumption expenditure, quarterly 1959-2009, FRED via statsmodels.datasets) has no
+    date column: numbers are never guessed as serial dates, and ``init`` says so."""
+    from statsmodels.datasets import macrodata
+
+    df = macrodata.load_pandas().data
+    rows = [["Demand", "Unemployment"]] + [[float(a), float(b)] for a, b in zip(df.realcons, df.unemp,
+                                                                                strict=True)]
+    path = write_book(tmp_path / "demand.xlsx", {"Demand": rows})
+    code, out, err = run_cli(capsys, "init", str(path), "--sheet", "Demand", "--value", "Demand",
+                             "--event", "fall")
+    assert code == 0, err
+    assert "no column of sheet 'Demand' holds dates, so the job has no date column" in out
+    grid = grid_openpyxl(path, "tocsin")
+    assert grid[1][:5] == ["Demand fall", "Demand", None, "Demand", "fall"]
+    code, out, err = run_cli(capsys, "refresh", "--json", str(path))
+    assert code == 0, err
+    assert json.loads(out)[0]["jobs"][0]["next_period"] == f"row {len(df) + 1}"
+    # a column headed "Date" that holds numbers is no date column either; ISO date text is one
+    text = [["Date", "Week of", "Demand"]] + [[float(i), f"2024-{1 + i // 28:02d}-{1 + i % 28:02d}", float(v)]
+                                              for i, v in enumerate(df.realcons[:100])]
+    path = write_book(tmp_path / "text.xlsx", {"D": text})
+    code, out, err = run_cli(capsys, "init", str(path), "--sheet", "D", "--value", "Demand",
+                             "--event", "rise")
+    assert code == 0, err
+    assert "date column 'Week of' (guessed: its cells are dates)" in out
+    assert grid_openpyxl(path, "tocsin")[1][2] == "Week of"

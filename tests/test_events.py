@@ -162,8 +162,14 @@ def ref_flag(values, crit: Criterion, k: int) -> list[float]:
         f = float(v)
         return None if math.isnan(f) else f
 
+    def same_(a, b):    # equal at spreadsheet precision (DESIGN.md §5; |a - b| < 2^-48 |a| and |b|)
+        d = abs(a - b)
+        return a == b or (d < abs(a) * 2.0 ** -48 and d < abs(b) * 2.0 ** -48)
+
     def cmp(a, op, b):
-        return {">=": a >= b, "<=": a <= b, ">": a > b, "<": a < b, "=": a == b, "<>": a != b}[op]
+        eq = same_(a, b)
+        return {">=": a > b or eq, "<=": a < b or eq, ">": a > b and not eq, "<": a < b and not eq,
+                "=": eq, "<>": not eq}[op]
 
     cond: list[float] = []
     prev = None
@@ -187,7 +193,7 @@ def ref_flag(values, crit: Criterion, k: int) -> list[float]:
             if prev is None:
                 cond.append(NAN)
             else:
-                ch = x - prev if crit.direction == "rise" else prev - x
+                ch = 0.0 if same_(x, prev) else x - prev if crit.direction == "rise" else prev - x
                 if crit.percent:
                     ch = None if prev == 0 else 100.0 * ch / abs(prev)
                 cond.append(NAN if ch is None else float(cmp(ch, crit.op, crit.threshold)))
@@ -271,3 +277,11 @@ def test_all_missing_gives_all_nan_not_an_error():
 def test_spreadsheet_column_shape_is_accepted():
     # a one-column range arrives as a list of one-element rows
     assert same(flag([[1.0], [None], ["alarm"]], ">0"), [1, NAN, NAN])
+
+
+def test_a_run_longer_than_the_series_never_holds():
+    # a min_run beyond the data (even beyond numpy's integers, as a spreadsheet cell may hold) is NaN
+    # everywhere, as min_run = n + 1 is
+    values = [1.0, 2.0, None, 3.0]
+    assert same(flag(values, ">0", min_run=10**30), flag(values, ">0", min_run=5))
+    assert np.isnan(flag(values, ">0", min_run=5)).all()

@@ -485,7 +485,8 @@ def test_dates_must_increase(tmp_path):
     data[5][0], data[6][0] = data[6][0], data[5][0]
     msg = _resolve_error(tmp_path, BASE, data)
     assert msg.startswith("`date_column` must hold increasing dates; got 'Date' in row 2 of sheet tocsin;")
-    assert msg.endswith("cell A7 (2024-01-05) of sheet 'Data' is earlier than cell A6 (2024-01-06)")
+    assert msg.endswith("cell A7 (2024-01-05) of sheet 'Data' is earlier than cell A6 (2024-01-06): sort "
+                        "the rows oldest first")
 
 
 def test_predictor_needs_numbers(tmp_path):

@@ -16,7 +16,9 @@ from sheetfns.partition import (
     default_cycle,
     default_season,
     infer_frequency,
+    next_periods,
     split,
+    time_order,
 )
 
 NAN = np.nan
@@ -129,7 +131,8 @@ def test_irregular_dates_are_noted():
     d = [dt.date(2000, 1, 1), dt.date(2000, 1, 3), dt.date(2000, 1, 8), dt.date(2000, 2, 1)]
     s = split(d, 1)
     assert s.frequency is None and s.gaps == ()
-    assert s.notes == ("the dates are irregular (not daily, weekly, monthly or quarterly)",)
+    assert s.notes == ("the dates are irregular (not hourly, daily, business days, weekly, monthly, "
+                       "quarterly or yearly)",)
 
 
 # ---------------------------------------------------------------- frequency and defaults
@@ -138,7 +141,8 @@ def test_irregular_dates_are_noted():
 @pytest.mark.parametrize("freq, expected", [
     ("D", "daily"), ("W-SUN", "weekly"), ("W-WED", "weekly"), ("MS", "monthly"), ("ME", "monthly"),
     ("QS-JAN", "quarterly"), ("QE-DEC", "quarterly"), ("QS-FEB", "quarterly"),
-    ("h", None), ("YS", None), ("2D", None), ("SMS", None),
+    ("h", "hourly"), ("B", "business"), ("YS", "yearly"), ("YE-DEC", "yearly"), ("YS-JUL", "yearly"),
+    ("2D", None), ("SMS", None), ("30min", None),
 ])
 def test_infer_frequency_agrees_with_pandas_date_ranges(freq, expected):
     # pandas generates the reference calendars (pandas.date_range) and names them (pandas.infer_freq)
@@ -149,7 +153,8 @@ def test_infer_frequency_agrees_with_pandas_date_ranges(freq, expected):
             warnings.simplefilter("ignore")       # pandas 3 announces a change of return type
             code = pd.infer_freq(dates)
         code = str(getattr(code, "freqstr", code))
-        assert code[0] == {"daily": "D", "weekly": "W", "monthly": "M", "quarterly": "Q"}[expected]
+        assert code[0] == {"hourly": "h", "daily": "D", "business": "B", "weekly": "W", "monthly": "M",
+                           "quarterly": "Q", "yearly": "Y"}[expected]
 
 
 def test_infer_frequency_edge_cases():
@@ -158,7 +163,8 @@ def test_infer_frequency_edge_cases():
     assert infer_frequency([dt.date(2023, 1, 30), dt.date(2023, 2, 28), dt.date(2023, 3, 30)]) == "monthly"
     assert infer_frequency([dt.date(2023, 1, 30), dt.date(2023, 2, 27), dt.date(2023, 3, 30)]) is None
     assert infer_frequency(pd.date_range("2000-01-01 08:00", periods=9, freq="D")) == "daily"
-    assert infer_frequency(pd.bdate_range("2000-01-03", periods=30)) == "daily"   # weekends are gaps
+    assert infer_frequency(pd.bdate_range("2000-01-03", periods=30)) == "business"   # weekends: no gaps
+    assert infer_frequency(pd.bdate_range("2000-01-03", periods=4)) == "daily"   # Mon-Thu: no weekend seen
     assert infer_frequency([dt.date(2000, 1, 1)]) is None
     assert infer_frequency([dt.date(2000, 1, 2), dt.date(2000, 1, 1)]) is None
     d = days("2000-01-01", "2000-01-10")
@@ -168,8 +174,10 @@ def test_infer_frequency_edge_cases():
 def test_defaults_from_frequency():
     # DESIGN.md §7
     assert [default_season(f) for f in ("daily", "weekly", "monthly", "quarterly", None)] == [7, 52, 12, 4, 1]
+    assert [default_season(f) for f in ("business", "hourly", "yearly")] == [5, 1, 1]   # DESIGN.md §3
     assert [default_cycle(f) for f in ("daily", "weekly", "monthly", "quarterly", None)] == [
         365.25, 52.18, 12.0, None, None]
+    assert [default_cycle(f) for f in ("business", "hourly", "yearly")] == [365.25, None, None]
 
 
 # ---------------------------------------------------------------- errors name the rows
@@ -177,8 +185,9 @@ def test_defaults_from_frequency():
 
 def test_unsorted_and_duplicate_dates_name_the_first_rows():
     d = days("2000-01-01", "2000-01-10")
-    with pytest.raises(PartitionError, match=r"`index` dates must be in increasing order; row 6 "
-                                             r"\(2000-01-04\) is earlier than row 5 \(2000-01-05\)"):
+    with pytest.raises(PartitionError, match=r"`index` dates must run in one direction \(they start oldest "
+                                             r"first\); row 6 \(2000-01-04\) is earlier than row 5 "
+                                             r"\(2000-01-05\): sort the rows oldest first"):
         split(d[:5] + [d[3]] + d[6:], 2)
     with pytest.raises(PartitionError, match=r"`index` has duplicate dates: rows 5 and 6 are both "
                                              r"2000-01-05"):
@@ -256,3 +265,69 @@ def test_periods_cover_the_series_and_count_every_event(events, data):
                     start + dt.timedelta(s.train_size), events=ev)
     assert (by_date.train_size, by_date.valid_size, by_date.train_events) == (
         s.train_size, s.valid_size, s.train_events)
+
+
+# ---------------------------------------------------------------- the periods that follow
+
+
+@pytest.mark.parametrize("freq", ["h", "D", "B", "W-SUN", "W-FRI", "MS", "ME", "QS-JAN", "QE-DEC", "QS-FEB",
+                                  "YS", "YE-DEC", "YS-MAR"])
+@pytest.mark.parametrize("start", ["2008-11-28", "2011-01-31 06:00"])
+def test_next_periods_continue_pandas_calendars(freq, start):
+    # pandas' calendar offsets (pandas.date_range) are the reference: the first 40 periods in, the
+    # next 5 out, at the data's own frequency
+    full = pd.date_range(start, periods=45, freq=freq)
+    if freq.startswith(("ME", "QE", "YE")):       # month-end calendars keep the time of day too
+        full = full.normalize() + (pd.Timestamp(start) - pd.Timestamp(start).normalize())
+    got = next_periods(full[:40], None, 5)
+    assert list(pd.DatetimeIndex(got)) == list(full[40:])
+
+
+def test_next_period_after_friday_is_monday_and_month_days_clamp():
+    # common practice: the business week is Monday to Friday; a month of 31 days' day 31 is day 30 in
+    # April and day 29 in a leap February
+    fri = [dt.date(2024, 3, 4) + dt.timedelta(i) for i in range(5)] + [dt.date(2024, 3, 11),
+                                                                         dt.date(2024, 3, 15)]
+    assert str(next_periods(fri, "business", 1)[0])[:10] == "2024-03-18"
+    m31 = [dt.date(2024, 1, 31), dt.date(2024, 3, 31)]
+    assert [str(d)[:10] for d in next_periods(m31, "monthly", 3)] == ["2024-04-30", "2024-05-31",
+                                                                       "2024-06-30"]
+    feb = [dt.date(2023, 1, 30), dt.date(2023, 2, 28), dt.date(2023, 3, 30)]
+    assert [str(d)[:10] for d in next_periods(feb, None, 11)][-1] == "2024-02-29"
+    assert next_periods(fri, "business", 0).size == 0
+
+
+def test_next_periods_of_irregular_or_unsorted_dates_is_an_error():
+    with pytest.raises(PartitionError, match="no regular frequency"):
+        next_periods([dt.date(2000, 1, 1), dt.date(2000, 1, 3), dt.date(2000, 1, 8)], None, 1)
+    with pytest.raises(PartitionError, match="sort the rows oldest first"):
+        next_periods([dt.date(2000, 1, 3), dt.date(2000, 1, 2)], "daily", 1)
+    with pytest.raises(InputError, match="`freq` must be one of"):
+        next_periods([dt.date(2000, 1, 3)], "fortnightly", 1)
+
+
+def test_business_days_missing_weekdays_are_holidays_noted_once():
+    # US market holidays of 2009 that fall on weekdays (recalled from memory: Independence Day observed
+    # on Friday 3 July, Labor Day 7 September, Thanksgiving 26 November, Christmas 25 December)
+    holidays = pd.to_datetime(["2009-07-03", "2009-09-07", "2009-11-26", "2009-12-25"])
+    days_ = pd.bdate_range("2009-06-01", "2009-12-31").difference(holidays)
+    s = split(days_, 20)
+    assert s.frequency == "business" and default_season(s.frequency) == 5
+    assert [g.missing for g in s.gaps] == [1, 1, 1, 1]
+    assert s.notes == ("4 business days (Monday to Friday) between the first and the last date have no "
+                       "row, read as holidays: 2009-07-03, 2009-09-07, 2009-11-26, ...",)
+
+
+def test_time_order_reads_newest_first_and_refuses_other_disorder():
+    d = days("2000-01-01", "2000-01-10")
+    assert time_order(d) == 1 and time_order(d[::-1]) == -1 and time_order(d[:1]) == 1
+    turned = d[::-1][:5] + [d[8]] + d[::-1][6:]
+    with pytest.raises(PartitionError, match=r"they start newest first\); row 6 \(2000-01-09\) is "
+                                             r"later than row 5 \(2000-01-06\): sort the rows oldest "
+                                             r"first") as info:
+        time_order(turned)
+    assert info.value.location == 6
+    with pytest.raises(PartitionError, match="duplicate dates: rows 2 and 3"):
+        time_order([d[2], d[1], d[1]])
+    with pytest.raises(PartitionError, match=r"they run newest first .*sort the rows oldest first"):
+        split(d[::-1], 2)       # the core's split takes rows in time order; the refresh turns them round

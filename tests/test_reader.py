@@ -362,7 +362,7 @@ def test_book_serves_header_cells_and_data_from_one_parse(tmp_path, monkeypatch)
         assert book.cells("tocsin") == [["job", "enabled"], ["a", False], [None, None], ["note", None]]
         assert book.first_row("tocsin") == 1
         assert book.read("Data", ["x"]).columns["x"][0] == 1.0
-    assert loads == ["Data", "tocsin"]
+    assert loads == ["tocsin", "Data"]      # the header row alone does not load the data sheet
 
 
 def test_sheet_data_is_frozen(tmp_path):
@@ -387,3 +387,108 @@ def test_openpyxl_written_workbook(tmp_path):
         data = read_sheet(tmp_path / "o.xlsx", "Log", ["Flag"], date_column="Date", backend=backend)
         np.testing.assert_array_equal(data.columns["Flag"], [1.0, np.nan])
         assert data.warnings == ("B3: 'n/a' read as missing",)
+
+
+@pytest.mark.parametrize("bulk", [True, False])
+def test_vectorised_date_column_matches_the_cell_by_cell_rules(bulk, monkeypatch):
+    """The date column is converted in bulk (pandas for date cells, numpy for serial numbers); the
+    result is the cell-by-cell rule of watcher.refresh.cells on every kind of cell (invented cells:
+    dates and date-times with sub-second noise as parsers give them, serials, ISO text, junk, blanks)."""
+    from watcher.refresh import columns
+    from watcher.refresh.cells import serial_stamp, text_stamp
+    from watcher.refresh.columns import dates_of
+
+    monkeypatch.setattr(columns, "_use_pandas", lambda cells: bulk)     # pandas, or the cell loop
+
+    rng = np.random.default_rng(5)
+    start = dt.datetime(1900, 3, 1)
+    col: list = []
+    for i in range(3000):
+        kind = i % 7
+        stamp = start + dt.timedelta(days=float(rng.uniform(0, 60000)))
+        col.append([stamp, stamp.date(), stamp.replace(microsecond=499_999 + i % 2),
+                    float(rng.uniform(0, 80000)) if i % 3 else int(rng.integers(1, 80000)),
+                    stamp.date().isoformat(), ["n/a", "", None, True][i % 4], 1e12][kind])
+
+    def one(v):                     # the cell-by-cell rule, to the nearest second (half up)
+        if isinstance(v, bool) or v is None or (isinstance(v, str) and not v.strip()):
+            return None
+        if isinstance(v, (int, float)):
+            v = serial_stamp(v)
+        elif isinstance(v, str):
+            v = text_stamp(v)
+        if v is None:
+            return None
+        if not isinstance(v, dt.datetime):
+            v = dt.datetime(v.year, v.month, v.day)
+        up = np.timedelta64(int(v.microsecond >= 500_000), "s")
+        return np.datetime64(v.replace(microsecond=0), "s") + up
+
+    got, msgs = dates_of(col, "A", 2, lambda: False, max_warnings=3)
+    want = np.array([one(v) or np.datetime64("NaT") for v in col], dtype="datetime64[s]")
+    assert (np.isnat(got) == np.isnat(want)).all()
+    assert (got[~np.isnat(got)] == want[~np.isnat(want)]).all()
+    bad = sum(1 for v in col if one(v) is None and not (v is None or v == ""))
+    assert msgs[0].startswith("date column A: ") and msgs[-1] == (
+        f"... and {bad - 3:,} more cells in column A is not a date (read as missing)")
+
+
+def _grid_header(path: Path, sheet: str) -> reader.Header:
+    with open_book(path) as book:
+        book._grid(sheet)                   # the sheet read in full: the header as the full reader sees it
+        return book.header(sheet)
+
+
+@pytest.mark.parametrize("sample", ["island_ferry.xlsx", "bakery_sales.xlsx", "pump_station.xlsx",
+                                    "formulas_demo.xlsx"])
+def test_header_row_read_alone_is_the_full_readers(sample):
+    """The header row read from the start of a sheet's part is the one the full reader finds, on every
+    sheet of the sample workbooks (written by our generator) -- or the quick reading declines."""
+    path = Path(__file__).resolve().parent.parent / "sample_workbooks" / sample
+    with open_book(path) as book:
+        names = book.sheet_names
+    quick = 0
+    for name in names:
+        with open_book(path) as book:
+            try:
+                head = book.header(name)
+            except ReaderError:
+                continue
+            was_quick = name not in book._grids
+        quick += was_quick
+        assert head == _grid_header(path, name), (sample, name)
+    assert quick >= 1
+
+
+def test_header_row_read_alone_by_writers_and_declined_where_unsure(tmp_path):
+    """openpyxl and xlsxwriter (shared and inline strings, numbers as headers, blank rows above) give the
+    full reader's header; a date or a styled number in the header row, or a blank last header cell
+    with data beyond it, make the quick reading decline (the sheet is then read in full)."""
+    wb = Workbook()
+    ws = wb.active
+    ws.title = "Data"
+    ws.append([])
+    ws.append([None, "Passengers", 2024, "  Wind  speed "])
+    ws.append([1.0, 2.0, 3.0, 4.0])
+    wb.save(tmp_path / "opx.xlsx")
+    cases = {"opx.xlsx": True}
+    for name, header, quick in (("dated.xlsx", ["Value", dt.date(2024, 1, 1)], False),
+                                ("blank_last.xlsx", ["Value", "Other", None], False),
+                                ("strings.xlsx", ["Value", "Other", "x"], True)):
+        book = xlsxwriter.Workbook(str(tmp_path / name))
+        sheet = book.add_worksheet("Data")
+        fmt = book.add_format({"num_format": "yyyy-mm-dd"})
+        for j, v in enumerate(header):
+            if isinstance(v, dt.date):
+                sheet.write_datetime(0, j, dt.datetime(v.year, v.month, v.day), fmt)
+            elif v is not None:
+                sheet.write(0, j, v)
+        for j in range(3):
+            sheet.write_number(1, j, j + 0.5)
+        book.close()
+        cases[name] = quick
+    for name, quick in cases.items():
+        with open_book(tmp_path / name) as book:
+            head = book.header("Data")
+            assert ("Data" not in book._grids) == quick, name
+        assert head == _grid_header(tmp_path / name, "Data"), name

@@ -33,6 +33,7 @@ import python_calamine
 
 from sheetfns import benchmarks, logistic, markov, profile, valuemodel
 from sheetfns.events import flag
+from sheetfns.partition import next_periods
 from sheetfns.scorecard import (
     METHOD_LABELS,
     MODEL_METHODS,
@@ -191,6 +192,7 @@ class Core:
     ev: Evaluation
     rates: Any
     trend: Any = None
+    dates: Any = None  # the row table's dates: the data's, then the future periods tocsin adds
 
 
 def core_reference(path: Path, name: str) -> Core:
@@ -210,8 +212,14 @@ def core_reference(path: Path, name: str) -> Core:
     shown = raw if job.text_columns else values
     predictors = {data.names[p]: data.columns[p] for p in job.predictors} or None
     known = {data.names[p]: data.columns[p] for p in job.known_ahead} or None
-    if data.dates is None and not np.isnan(events[-1]):
-        # no dates: the `horizon` periods after the last data row are the future rows
+    dates = data.dates
+    if not np.isnan(events[-1]):
+        # data ending on an observation: the `horizon` periods after it are the future rows, dated at
+        # the data's frequency (DESIGN.md §3), or numbered rows without dates
+        if dates is not None:
+            later = next_periods(dates, job.frequency, job.horizon).astype(dates.dtype)
+            dates = np.concatenate([dates, later])
+
         def more(a):
             return np.concatenate([a, np.full(job.horizon, None if a.dtype == object else np.nan,
                                               dtype=a.dtype)])
@@ -225,8 +233,8 @@ def core_reference(path: Path, name: str) -> Core:
     settings = Settings(horizon=job.horizon, season=job.season, cycle=job.cycle, harmonics=job.harmonics,
                         lags=job.lags, refit=job.refit, cutoff=job.cutoff,
                         cost_false_alarm=job.cost_false_alarm, cost_miss=job.cost_miss,
-                        weekday=job.frequency == "daily")
-    ev = evaluate(events, train_size=job.train_size, settings=settings, dates=data.dates,
+                        weekday=job.frequency in ("daily", "business"))
+    ev = evaluate(events, train_size=job.train_size, settings=settings, dates=dates,
                   values=use_values, predictors=predictors, known_ahead=known, criterion=job.criterion,
                   raw_values=raw, min_run=job.min_run)
     # The Evaluation carries the public functions' output (DESIGN.md §4), method by method.
@@ -243,26 +251,30 @@ def core_reference(path: Path, name: str) -> Core:
     same(ev.method("majority").prob, benchmarks.majority_share(events, train_size=n_train, horizon=h),
          f"{name}: majority share")
     lg = logistic.forecast(events, values=use_values, predictors=predictors, known_ahead=known,
-                           dates=data.dates, train_size=n_train, horizon=h, lags=job.lags,
-                           cycle=job.cycle, harmonics=job.harmonics, weekday=job.frequency == "daily",
+                           dates=dates, train_size=n_train, horizon=h, lags=job.lags,
+                           cycle=job.cycle, harmonics=job.harmonics,
+                           weekday=job.frequency in ("daily", "business"),
                            refit=job.refit)
     same(ev.method("logistic").prob, lg.prob, f"{name}: logistic probability")
     same(ev.method("markov").prob, markov.forecast(events, train_size=n_train, horizon=h, refit=job.refit),
          f"{name}: two-state chain probability")
-    vm = valuemodel.forecast(raw, job.criterion, predictors=predictors, known_ahead=known, dates=data.dates,
+    vm = valuemodel.forecast(raw, job.criterion, predictors=predictors, known_ahead=known, dates=dates,
                              train_size=n_train, horizon=h, lags=job.lags, cycle=job.cycle,
-                             harmonics=job.harmonics, weekday=job.frequency == "daily", refit=job.refit,
-                             min_run=job.min_run)
+                             harmonics=job.harmonics, weekday=job.frequency in ("daily", "business"),
+                             refit=job.refit, min_run=job.min_run)
     if vm.applies:
         same(ev.method("value_model").prob, vm.prob, f"{name}: value model probability")
     else:
         assert "value_model" not in {m.key for m in ev.methods}, name
     rates = trend = None
-    if data.dates is not None:
+    if dates is not None:
         by = {"quarterly": "quarter"}.get(job.frequency or "", "month")
-        rates = profile.rate_table(data.dates, events, by=by)
-        trend = profile.seasonal_trend(rates, degree=2)
-    return Core(job, data, events, shown if shown is not None else events, ev, rates, trend)
+        rates = profile.rate_table(dates, events, by=by)
+        try:
+            trend = profile.seasonal_trend(rates, degree=2)
+        except ValueError:      # too few periods of the year for a trend (two months of data)
+            trend = None
+    return Core(job, data, events, shown if shown is not None else events, ev, rates, trend, dates)
 
 
 # ------------------------------------------------------------------------------ the sheet vs the core
@@ -287,7 +299,7 @@ def check_forecast_sheet(grid: list[list[Any]], core: Core, reader: str) -> None
         f"{what}: the row table is longer than the data"
     if data.dates is not None:
         got = np.array([as_day(cell(grid, 1 + i, col)) for i in range(n)])
-        assert (got == data.dates).all(), f"{what}: dates"
+        assert (got == core.dates).all(), f"{what}: dates"
     else:
         same(floats(grid, col, 1, n), np.arange(1, n + 1), f"{what}: row numbers")
     if core.values.dtype == object:  # the text of a text criterion
@@ -308,10 +320,10 @@ def check_forecast_sheet(grid: list[list[Any]], core: Core, reader: str) -> None
     assert cell(grid, find_row(grid, "status"), 1) == "ok", what
     through = cell(grid, find_row(grid, "data through"), 1)
     if data.dates is not None:
-        assert as_day(through) == data.dates[ev.last_observed], f"{what}: data through"
+        assert as_day(through) == core.dates[ev.last_observed], f"{what}: data through"
     else:
         assert through == f"row {ev.last_observed + 1}", f"{what}: data through"
-    check_periods_ahead(grid, ev, data.dates, what)
+    check_periods_ahead(grid, ev, core.dates, what)
     # The verdict, the warnings and the caution, wrapped over rows of column B.
     assert _wrapped_text(grid, "verdict") == ev.verdict, what
     if ev.warnings:

@@ -28,7 +28,7 @@ from hypothesis import strategies as st
 
 from sheetfns import logistic, valuemodel
 from sheetfns.errors import CriterionError, InputError
-from sheetfns.events import flag, parse_criterion
+from sheetfns.events import approx_equal, flag, parse_criterion
 
 sm = pytest.importorskip("statsmodels.api")
 stats = pytest.importorskip("scipy.stats")
@@ -276,7 +276,8 @@ def test_event_side_agrees_with_flag(rule):
     q, _ = valuemodel.quantity(v, rule)
     side, cut, strict = valuemodel._event_side(parse_criterion(rule))
     d = side * (q - cut)
-    ours = np.where(np.isnan(q), np.nan, (d > 0) | ((d == 0) & (not strict))).astype(float)
+    tie = approx_equal(q, cut)      # a tie at spreadsheet precision (DESIGN.md §5)
+    ours = np.where(np.isnan(q), np.nan, np.where(tie, not strict, d > 0)).astype(float)
     np.testing.assert_array_equal(ours, flag(v, rule))
 
 

@@ -102,8 +102,13 @@ def _stderr_progress():
 def _cmd_init(args: argparse.Namespace) -> int:
     from watcher.refresh.newtable import init_workbook  # when it runs (see the module docstring)
     job = init_workbook(args.book, sheet=args.sheet, value=args.value, date=args.date,
-                                event=args.event, job=args.job)
-    print(f"{args.book}: added sheet 'tocsin' with job '{job}'. Run: tocsin refresh {args.book}")
+                        event=args.event, job=args.job)
+    if job.date_column is None and job.guessed:
+        print(f"{args.book}: no column of sheet '{args.sheet}' holds dates, so the job has no date column "
+              f"(its rows are the periods); give --date COL to name one")
+    elif job.guessed:
+        print(f"{args.book}: date column '{job.date_column}' (guessed: its cells are dates)")
+    print(f"{args.book}: added sheet 'tocsin' with job '{job.name}'. Run: tocsin refresh {args.book}")
     return 0
 
 

@@ -15,7 +15,9 @@ import datetime as dt
 import re
 from typing import Any
 
-__all__ = ["plain_number", "text_stamp", "serial_stamp", "show", "cell_text"]
+import numpy as np
+
+__all__ = ["plain_number", "text_stamp", "serial_stamp", "serial_stamps", "show", "cell_text"]
 
 _PLAIN_NUMBER = re.compile(r"\s*[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?\s*")
 _SERIAL_ORIGIN = {False: dt.datetime(1899, 12, 30), True: dt.datetime(1904, 1, 1)}
@@ -58,6 +60,25 @@ def serial_stamp(serial: float, *, date1904: bool = False) -> dt.datetime | None
         return _SERIAL_ORIGIN[bool(date1904)] + dt.timedelta(days=float(serial))
     except (OverflowError, ValueError):
         return None
+
+
+_SERIAL_ORIGIN_US = {k: np.datetime64(v, "us") for k, v in _SERIAL_ORIGIN.items()}
+_CALENDAR_US = (np.datetime64("0001-01-01T00:00:00", "us"), np.datetime64("9999-12-31T23:59:59.999999", "us"))
+
+
+def serial_stamps(serials: np.ndarray, *, date1904: bool = False) -> np.ndarray:
+    """:func:`serial_stamp` of many numbers at once: ``datetime64[us]``, NaT outside the calendar.
+
+    >>> serial_stamps(np.array([45352.25, 1e9])).astype(str).tolist()
+    ['2024-03-01T06:00:00.000000', 'NaT']
+    """
+    us = np.asarray(serials, dtype=float) * 86_400e6
+    ok = np.isfinite(us) & (np.abs(us) < 4e17)           # within +-12,000 years of the origin
+    step = np.round(np.where(ok, us, 0.0)).astype(np.int64).astype("timedelta64[us]")
+    out = _SERIAL_ORIGIN_US[bool(date1904)] + step
+    ok &= (out >= _CALENDAR_US[0]) & (out <= _CALENDAR_US[1])
+    out[~ok] = np.datetime64("NaT")
+    return out
 
 
 def show(value: Any) -> str:

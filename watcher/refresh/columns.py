@@ -6,20 +6,22 @@ The rules (the reader's module docstring tells them from the user's side):
   number as that number (:func:`watcher.refresh.cells.plain_number`); other text, dates and times are
   missing with a warning naming the cell, unless the column's text is wanted (a text criterion);
 * dates: date cells as they are; ISO text as a date (:func:`watcher.refresh.cells.text_stamp`); numbers
-  as serial dates of the workbook's date system (:func:`watcher.refresh.cells.serial_stamp`), except
-  that a column of whole numbers all between 1000 and 2999 is read as years.
+  as serial dates of the workbook's date system (:func:`watcher.refresh.cells.serial_stamps`), except
+  that a column of whole numbers all between 1000 and 2999 is read as years. Date cells and numbers are
+  converted in one vectorised step each (a Python loop over a million dates took about a second).
 """
 from __future__ import annotations
 
 import datetime as dt
 import re
+import sys
 from collections.abc import Callable
 from typing import Any
 
 import numpy as np
 
 from sheetfns.errors import InputError
-from watcher.refresh.cells import plain_number, serial_stamp, show, text_stamp
+from watcher.refresh.cells import plain_number, serial_stamps, show, text_stamp
 
 __all__ = ["MAX_COLUMNS", "column_index", "is_letter", "blank", "numbers_of", "dates_of"]
 
@@ -29,7 +31,19 @@ _EPOCH = dt.datetime(1970, 1, 1)
 _EPOCH_ORDINAL = _EPOCH.toordinal()
 _type_of = np.frompyfunc(type, 1, 1)
 _NUMERIC_TYPES = [float, int, bool]
+_NUMBER_TYPES = [float, int]
+_STAMP_TYPES = [dt.datetime, dt.date]
+_TEXT_TYPE = [str]
 _NONE_TYPE = [type(None)]
+
+
+def _of_type(kinds: np.ndarray, types: list[type]) -> np.ndarray:
+    """Which cells (their types, as ``_type_of`` gives them) are of one of ``types``; element-wise
+    identity tests, several times faster than ``numpy.isin`` on object arrays."""
+    out = np.zeros(kinds.shape, dtype=bool)
+    for t in types:
+        out |= kinds == t
+    return out
 
 
 def column_index(letter: str) -> int:
@@ -70,11 +84,11 @@ def numbers_of(col: list[Any], letter: str, first: int, *, keep_text: bool,
     obj = np.empty(n, dtype=object)
     obj[:] = col
     kinds = _type_of(obj)
-    numeric = np.isin(kinds, _NUMERIC_TYPES)
+    numeric = _of_type(kinds, _NUMERIC_TYPES)
     out = np.full(n, np.nan)
     if numeric.any():
         out[numeric] = obj[numeric].astype(float)
-    odd = np.flatnonzero(~numeric & ~np.isin(kinds, _NONE_TYPE))
+    odd = np.flatnonzero(~numeric & ~_of_type(kinds, _NONE_TYPE))
     found: list[tuple[int, Any]] = []
     text_at: list[int] = []
     for i in odd.tolist():
@@ -104,18 +118,6 @@ def numbers_of(col: list[Any], letter: str, first: int, *, keep_text: bool,
     return out, raw, _capped(found, letter, first, max_warnings, "read as missing")
 
 
-def _years(col: list[Any]) -> bool:
-    """Whether every filled cell is a whole number from 1000 to 2999 (a column of years)."""
-    seen = False
-    for v in col:
-        if blank(v):
-            continue
-        if v.__class__ not in (int, float) or not float(v).is_integer() or not 1000 <= v <= 2999:
-            return False
-        seen = True
-    return seen
-
-
 def _seconds(stamp: dt.date) -> int:
     """Seconds since 1970-01-01 of a date or a naive date-time (to the nearest second)."""
     if stamp.__class__ is dt.date:
@@ -124,46 +126,96 @@ def _seconds(stamp: dt.date) -> int:
             + stamp.second + (stamp.microsecond >= 500_000))
 
 
+def _years(obj: np.ndarray, kinds: np.ndarray) -> bool:
+    """Whether every filled cell is a whole number from 1000 to 2999 (a column of years)."""
+    filled = ~_of_type(kinds, _NONE_TYPE)
+    for i in np.flatnonzero(_of_type(kinds, _TEXT_TYPE)).tolist():
+        if obj[i].strip():
+            return False
+        filled[i] = False       # a blank text cell
+    if not filled.any() or not _of_type(kinds[filled], _NUMBER_TYPES).all():
+        return False
+    x = obj[filled].astype(float)
+    return bool(((x == np.floor(x)) & (x >= 1000) & (x <= 2999)).all())
+
+
+def _to_seconds(us: np.ndarray) -> np.ndarray:
+    """datetime64[us] to seconds since 1970, to the nearest second (half a second up)."""
+    return (us.astype(np.int64) + 500_000) // 1_000_000
+
+
+PANDAS_FROM = 100_000
+"""Date cells from which pandas converts them (in C: 0.3 s for a million, where the cell-by-cell loop
+takes 0.8 s). Below it, or while pandas is not yet imported for a smaller column, the loop: importing
+pandas costs 0.6-1.5 s, more than the loop over a small column, and the watcher's no-op refresh of an
+unchanged workbook never needs pandas otherwise (measured with bench/refresh.py: 0.5 s against 1.5 s
+for the ferry sample when every read imported it). A refresh that computes imports pandas anyway."""
+
+
+def _use_pandas(cells: int) -> bool:
+    return cells >= PANDAS_FROM or "pandas" in sys.modules
+
+
+def _stamp_seconds(values: np.ndarray) -> np.ndarray:
+    """``date`` / ``datetime`` objects as seconds since 1970, to the nearest second (half up)."""
+    if _use_pandas(values.size):
+        import pandas as pd  # lazy: see PANDAS_FROM (and DEVELOPERS.md, The core)
+        try:
+            return _to_seconds(pd.to_datetime(values).to_numpy().astype("datetime64[us]"))
+        except (ValueError, OverflowError, TypeError):   # beyond pandas 2's nanosecond range
+            pass
+    return np.fromiter(map(_seconds, values), dtype=np.int64, count=values.size)
+
+
 def dates_of(col: list[Any], letter: str, first: int, date1904: Callable[[], bool],
           max_warnings: int) -> tuple[np.ndarray, list[str]]:
     """The date column as datetime64[s] (NaT where missing) and its warnings. ``date1904`` is asked
-    (once) when a cell holds a serial number."""
+    (once) when a cell holds a serial number.
+
+    Date cells (the bulk of a date column) are converted in one vectorised step (see
+    :data:`PANDAS_FROM`), serial numbers too; text cells are read one by one."""
     n = len(col)
+    obj = np.empty(n, dtype=object)
+    obj[:] = col
+    kinds = _type_of(obj)
     secs = np.zeros(n, dtype=np.int64)
     valid = np.zeros(n, dtype=bool)
-    found: list[tuple[int, Any]] = []
+    bad = np.zeros(n, dtype=bool)
+    stamp = _of_type(kinds, _STAMP_TYPES)
+    if stamp.any():
+        secs[stamp] = _stamp_seconds(obj[stamp])
+        valid |= stamp
+    number = _of_type(kinds, _NUMBER_TYPES)
     serials = 0
-    as_years = _years(col)
     system: bool | None = None
-    for i, v in enumerate(col):
-        cls = v.__class__
-        if cls is dt.date or cls is dt.datetime:
-            stamp = v
-        elif v is None or (cls is str and not v.strip()):
-            continue
-        elif cls is float or cls is int:
-            if as_years:
-                stamp = dt.date(int(v), 1, 1)
-            else:
-                if system is None:
-                    system = bool(date1904())
-                stamp = serial_stamp(v, date1904=system)
-                if stamp is None:
-                    found.append((i, v))
-                    continue
-                serials += 1
-        elif cls is str:
-            stamp = text_stamp(v)
-            if stamp is None:
-                found.append((i, v))
-                continue
+    if number.any():
+        x = obj[number].astype(float)
+        if _years(obj, kinds):
+            years = (x.astype(np.int64) - 1970).astype("datetime64[Y]")     # 1 January of each year
+            secs[number] = _to_seconds(years.astype("datetime64[us]"))
+            valid |= number
         else:
-            found.append((i, v))
+            system = bool(date1904())
+            when = serial_stamps(x, date1904=system)
+            ok = ~np.isnat(when)
+            at = np.flatnonzero(number)
+            secs[at[ok]] = _to_seconds(when[ok])
+            valid[at[ok]] = True
+            bad[at[~ok]] = True
+            serials = int(ok.sum())
+    for i in np.flatnonzero(~stamp & ~number).tolist():
+        v = col[i]
+        if v is None or (v.__class__ is str and not v.strip()):
             continue
-        secs[i] = _seconds(stamp)
+        when_ = text_stamp(v) if v.__class__ is str else None
+        if when_ is None:
+            bad[i] = True
+            continue
+        secs[i] = _seconds(when_)
         valid[i] = True
     out = secs.astype("datetime64[s]")
     out[~valid] = np.datetime64("NaT")
+    found = [(i, col[i]) for i in np.flatnonzero(bad).tolist()]
     msgs = _capped(found, letter, first, max_warnings, "is not a date (read as missing)")
     if serials:
         msgs.insert(0, f"date column {letter}: {serials:,} cells hold numbers, not dates; read them as "

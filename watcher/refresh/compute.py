@@ -33,11 +33,11 @@ from sheetfns.scorecard import (
     weekday_terms,
 )
 from watcher.refresh.jobs import Job, resolve
+from watcher.refresh.periods import MAX_TABLE_ROWS, in_time_order, with_future
 from watcher.refresh.texts import VERSION
 
 __all__ = ["MAX_TABLE_ROWS", "JobOutcome", "compute_job", "digest", "event_text", "settings_for", "summary"]
 
-MAX_TABLE_ROWS = 1_048_575  # data rows below the row table's header (ECMA-376 Part 1, 18.3.1.73)
 
 
 @dataclass(frozen=True)
@@ -56,8 +56,10 @@ class JobOutcome:
     values: Any = None
     profile: Any = None
     trend: Any = None
-    notes: tuple[str, ...] = ()
+    notes: tuple[str, ...] = ()  # what the forecast sheet's notes say of the data (the warnings first)
+    warnings: tuple[str, ...] = ()  # the notes that warn (cells read as missing, gaps, holidays, ...)
     unchanged: bool = False  # inputs as recorded at the last refresh: not recomputed, sheets kept
+    source: Any = None  # the key of the job's read (watcher.refresh.parts.source_key), kept in the state
     blocked: bool = False  # no sheet of its own is written (a user's sheet, or the name is taken)
 
 
@@ -89,32 +91,25 @@ def settings_for(job: Job) -> Settings:
 
 def compute_job(job: Job, data: Any) -> JobOutcome:
     """Resolve ``job`` against its data and run every method. Raises a ValueError (the refresh's
-    JobError, or the core's errors) for data that do not allow a forecast."""
+    JobError, or the core's errors) for data that do not allow a forecast.
+
+    Dates that run newest first are read oldest first, and the periods after the last observation
+    are added as future rows (:mod:`watcher.refresh.periods`): the outcome's ``data`` is the data so
+    laid out, the forecast sheet's rows."""
+    data, order_note = in_time_order(data)
     job = resolve(job, data)
     raw = data.raw[job.value_column] if job.text_columns else data.columns[job.value_column]
     events = flag(raw, job.criterion, job.min_run)
+    data, events, future_note = with_future(data, events, horizon=job.horizon, frequency=job.frequency,
+                                            dated=job.date_column is not None)
+    raw = data.raw[job.value_column] if job.text_columns else data.columns[job.value_column]
     values = data.columns.get(job.value_column)
     shown = raw if job.text_columns else values  # the row table shows the text of a text criterion
     predictors = {data.names.get(p, p): data.columns[p] for p in job.predictors} or None
     known = {data.names.get(p, p): data.columns[p] for p in job.known_ahead} or None
-    notes = list(data.warnings)
-    # Without dates the reader cannot tell future rows (trailing rows are blank), so the periods
-    # after the last observed row are added here: the next-period forecasts need them.
-    pad = min(job.horizon, MAX_TABLE_ROWS - events.size) if data.dates is None and events.size and \
-        not np.isnan(events[-1]) else 0
-    if pad > 0:
-        def more(a: Any) -> Any:
-            fill = np.full(pad, None if a.dtype == object else np.nan, dtype=a.dtype)
-            return np.concatenate([a, fill])
-
-        events, raw = more(events), more(np.asarray(raw))
-        values = more(values) if values is not None else None
-        shown = more(np.asarray(shown)) if shown is not None else None
-        predictors = {k: more(v) for k, v in predictors.items()} if predictors else None
-        known = {k: more(v) for k, v in known.items()} if known else None
-        first = events.size - pad + 1
-        rows = f"rows {first}-{events.size}: the periods" if pad > 1 else f"row {first}: the period"
-        notes.append(f"{rows} after the last data row (the job has no date column)")
+    warnings = (*data.warnings, *((order_note,) if order_note else ()), *job.date_notes,
+                *_skipped(data, job, raw, events))
+    notes = (*warnings, *((future_note,) if future_note else ()))
     ev = evaluate(events, train_size=job.train_size, settings=settings_for(job), dates=data.dates,
                   values=model_values(values), predictors=predictors, known_ahead=known,
                   criterion=job.criterion, raw_values=raw, min_run=job.min_run)
@@ -128,7 +123,22 @@ def compute_job(job: Job, data: Any) -> JobOutcome:
     return JobOutcome(job=job, name=job.name, sheet=job.output_sheet, profile_sheet=job.profile_sheet,
                       fingerprint="", evaluation=ev, data=data, events=events,
                       values=shown if shown is not None else events, profile=table, trend=trend,
-                      notes=tuple(notes))
+                      notes=notes, warnings=warnings)
+
+
+def _skipped(data: Any, job: Job, raw: np.ndarray, events: np.ndarray) -> tuple[str, ...]:
+    """The warning for the rows up to the last observation that hold no value (blank, or a cell read
+    as missing): every method skips them."""
+    observed = np.flatnonzero(events == events)
+    if not observed.size:
+        return ()
+    head = raw[:observed[-1] + 1]
+    empty = int(np.count_nonzero(head == None if head.dtype == object else np.isnan(head)))  # noqa: E711
+    if not empty:
+        return ()
+    rows = f"{empty} row{'s' * (empty > 1)} up to the last observation {'have' if empty > 1 else 'has'}"
+    return (f"{rows} no value in column {data.letters[job.value_column]} (blank, or a cell read as "
+            f"missing): the methods skip {'them' if empty > 1 else 'it'}",)
 
 
 def event_text(job: Job, data: Any) -> str:

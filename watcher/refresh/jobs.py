@@ -72,10 +72,12 @@ from typing import Any
 
 import numpy as np
 
+from sheetfns.errors import PartitionError
 from sheetfns.events import Criterion, flag
-from sheetfns.partition import default_cycle, default_season, infer_frequency, split
+from sheetfns.partition import default_cycle, default_season, infer_frequency, split, time_order
 from watcher.refresh.cells import show
 from watcher.refresh.errors import JobError, ReaderError
+from watcher.refresh.periods import show_stamp
 from watcher.refresh.reader import Book
 from watcher.refresh.settings import SETTINGS, Row, parse_enabled, parse_header, parse_row, row_label
 from watcher.xlsx import package
@@ -124,9 +126,11 @@ class Job:
     defaults: frozenset[str] = frozenset()
     #: (setting, cell text) for every setting of the row, for fingerprints and reports
     settings: tuple[tuple[str, str], ...] = ()
-    #: filled by :func:`resolve`: the date frequency and the rows of the training period
+    #: filled by :func:`resolve`: the date frequency, the rows of the training period and what the dates
+    #: call for saying (gaps, holidays, irregular dates; :func:`sheetfns.partition.split`'s notes)
     frequency: str | None = None
     train_size: int | None = None
+    date_notes: tuple[str, ...] = ()
     resolved: bool = False
 
     @property
@@ -403,16 +407,21 @@ def resolve(job: Job, data: Any, *, sheet: str = TABLE_SHEET) -> Job:
             cell = data.cell(job.date_column, i)
             raise fail("date_column", f"must hold a date in every data row; cell {cell} of sheet "
                        f"{data.sheet!r} has none", job.date_column)
-        back = (dates[1:] <= dates[:-1]).nonzero()[0]
-        if back.size:                           # name the cells (partition only knows positions)
-            i = int(back[0]) + 1
+        try:
+            order = time_order(dates)
+        except PartitionError as exc:           # name the cells (partition only knows positions)
+            i = int(exc.location) - 1
             a, b = data.cell(job.date_column, i - 1), data.cell(job.date_column, i)
-            shown = [str(d)[:10] if str(d).endswith("T00:00:00") else str(d).replace("T", " ")
-                     for d in (dates[i - 1], dates[i])]
+            shown = [show_stamp(d) for d in (dates[i - 1], dates[i])]
+            way = "earlier" if dates[1] > dates[0] else "later"
             problem = (f"cells {a} and {b} of sheet {data.sheet!r} both hold {shown[1]}"
                        if dates[i] == dates[i - 1] else
-                       f"cell {b} ({shown[1]}) of sheet {data.sheet!r} is earlier than cell {a} ({shown[0]})")
-            raise fail("date_column", "must hold increasing dates", job.date_column, hint=problem)
+                       f"cell {b} ({shown[1]}) of sheet {data.sheet!r} is {way} than cell {a} ({shown[0]}): "
+                       f"sort the rows oldest first")
+            raise fail("date_column", "must hold increasing dates", job.date_column, hint=problem) from None
+        if order < 0:                           # the refresh reads these oldest first before resolving
+            raise fail("date_column", "must hold increasing dates", job.date_column,
+                       hint="the dates run newest first: sort the rows oldest first")
         index = dates
         freq = infer_frequency(dates) if dates.size >= 2 else None
     for name in job.predictors + job.known_ahead:
@@ -442,7 +451,7 @@ def resolve(job: Job, data: Any, *, sheet: str = TABLE_SHEET) -> Job:
                 f"data"))
         raise fail("season", f"must be shorter than the {n} observed rows", season)
     return dataclasses.replace(job, season=season, cycle=cycle, frequency=freq,
-                               train_size=parts.train_size, resolved=True)
+                               train_size=parts.train_size, date_notes=parts.notes, resolved=True)
 
 
 # ----------------------------------------------------------------------------------- writing a table

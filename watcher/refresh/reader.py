@@ -57,6 +57,7 @@ import python_calamine
 from sheetfns.errors import InputError
 from watcher.refresh.columns import blank, column_index, dates_of, is_letter, numbers_of
 from watcher.refresh.errors import BookError, ReaderError
+from watcher.refresh.parts import header_cells, parts_of
 from watcher.xlsx.spec import col_letter as column_letter  # one column-letter rule for reading and writing
 
 __all__ = ["ReaderError", "Header", "SheetData", "Book", "open_book", "read_sheet", "read_header",
@@ -177,6 +178,12 @@ class SheetData:
         Sheet row number (1-based) of the first data row.
     backend : {'calamine', 'openpyxl'}
         The parser that read the sheet.
+    newest_first : bool
+        The arrays were turned round to run oldest first (the sheet lists the newest row first; see
+        :mod:`watcher.refresh.periods`): row i of the arrays is sheet row ``first_row + nrows - 1 - i``.
+    added : int
+        Future rows tocsin appended after the data (:mod:`watcher.refresh.periods`); the arrays are
+        ``nrows + added`` long. The sheet holds no cell for them.
     """
 
     book: str
@@ -192,6 +199,8 @@ class SheetData:
     nrows: int
     first_row: int
     backend: str = field(default="calamine")
+    newest_first: bool = False
+    added: int = 0
 
     @property
     def headers(self) -> tuple[str, ...]:
@@ -200,7 +209,8 @@ class SheetData:
 
     def cell(self, key: str, i: int) -> str:
         """The cell reference (``B51``) of row ``i`` of column ``key``."""
-        return f"{self.letters[key]}{self.first_row + i}"
+        row = self.nrows - 1 - i if self.newest_first else i
+        return f"{self.letters[key]}{self.first_row + row}"
 
 
 @dataclass
@@ -236,6 +246,7 @@ class Book:
         self._cal = None
         self._opx = None
         self._grids: dict[str, _Grid] = {}
+        self._quick: dict[str, Header | None] = {}
         self._date1904: bool | None = None
         self.backend = "openpyxl"
         if backend in ("auto", "calamine"):
@@ -364,16 +375,41 @@ class Book:
         return _Grid(rows=rows[top:], top=top, header_row=top + 1, texts=texts)
 
     def header(self, sheet: str) -> Header:
-        """The header row of ``sheet``."""
-        grid = self._grid(sheet)
-        return Header(book=self.name, sheet=self.resolve_sheet(sheet), texts=grid.texts,
-                      row=grid.header_row)
+        """The header row of ``sheet``. Before the sheet is read in full, the header row alone is read
+        from the start of the sheet's part where that decides it (:func:`watcher.refresh.parts.header_cells`),
+        so checking a job table does not load its data sheets."""
+        name = self.resolve_sheet(sheet)
+        if name not in self._grids:
+            quick = self._quick_header(name)
+            if quick is not None:
+                return quick
+        grid = self._grid(name)
+        return Header(book=self.name, sheet=name, texts=grid.texts, row=grid.header_row)
+
+    def _quick_header(self, name: str) -> Header | None:
+        if name in self._quick:
+            return self._quick[name]
+        found = None
+        if self._cal is not None and zipfile.is_zipfile(self.path):
+            with zipfile.ZipFile(self.path) as z:
+                parts = parts_of(z)
+                cells = header_cells(z, parts, name) if parts is not None else None
+            if cells is not None:
+                found = Header(book=self.name, sheet=name, texts=tuple(_header_text(v) for v in cells[1]),
+                               row=cells[0])
+        self._quick[name] = found
+        return found
 
     def cells(self, sheet: str) -> list[list[Any]]:
         """Every used row of ``sheet`` from the header row down, as lists of cell values (None for a
         blank; numbers as float or int; TRUE/FALSE as bool; dates as ``datetime``/``date``). For small
         tables such as the job table."""
         return [[None if blank(v) else v for v in r] for r in self._grid(sheet).rows]
+
+    def column_cells(self, sheet: str, index: int) -> list[Any]:
+        """The cells of column ``index`` (0-based) below the header row of ``sheet``, as the parser gives
+        them ('' or None for a blank)."""
+        return [r[index] if index < len(r) else None for r in self._grid(sheet).rows[1:]]
 
     def first_row(self, sheet: str) -> int:
         """The 1-based sheet row number of the header row of ``sheet``."""
@@ -383,7 +419,8 @@ class Book:
              text_columns: Iterable[str] = (), max_warnings: int = 10) -> SheetData:
         """Read the named columns of ``sheet``; see :func:`read_sheet`."""
         grid = self._grid(sheet)
-        head = self.header(sheet)
+        name = self.resolve_sheet(sheet)
+        head = Header(book=self.name, sheet=name, texts=grid.texts, row=grid.header_row)
         if isinstance(columns, str):
             columns = [columns]
         value_keys = list(dict.fromkeys(str(c).strip() for c in columns))

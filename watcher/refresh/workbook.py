@@ -30,6 +30,7 @@ from watcher.refresh import forecast_sheet, layout
 from watcher.refresh.alerts import RECORD_KEY, Rang, ring_jobs
 from watcher.refresh.compute import JobOutcome, compute_job, digest, event_text
 from watcher.refresh.jobs import TABLE_SHEET, JobTable, read_job_table
+from watcher.refresh.parts import same_source, source_key
 from watcher.refresh.reader import Book
 from watcher.refresh.report import JobReport, RefreshReport, job_record, job_report
 from watcher.refresh.settings import Row
@@ -126,14 +127,17 @@ def _failed_rows(table: JobTable, taken: set[str], known: dict[str, str]) -> lis
 
 
 def evaluate_book(path: Path, progress: Progress = None, *, known: dict[str, str] | None = None,
-                  taken: Collection[str] = ()) -> tuple[JobTable, list[JobOutcome]]:
+                  taken: Collection[str] = (), sources: dict[str, Any] | None = None
+                  ) -> tuple[JobTable, list[JobOutcome]]:
     """Read the job table and compute every job (nothing is written). Returns (job table, outcomes).
 
     ``known`` maps job names to the input fingerprints recorded at the last refresh: a job whose
-    fingerprint matches is not computed again (its outcome has ``unchanged`` set). ``taken`` holds
-    the names of the user's sheets: a job whose output sheet is one of them fails without a sheet
-    (``blocked``), and the other jobs go on."""
+    fingerprint matches is not computed again (its outcome has ``unchanged`` set). ``sources`` maps job
+    names to the keys of their reads recorded then (:mod:`watcher.refresh.parts`): a known job whose
+    key is the same is not even read. ``taken`` holds the names of the user's sheets: a job whose output
+    sheet is one of them fails without a sheet (``blocked``), and the other jobs go on."""
     known = known or {}
+    sources = sources or {}
     taken = {t.casefold() for t in taken}
     with Book(path) as book:
         table = read_job_table(book, user_sheets=taken)
@@ -146,16 +150,25 @@ def evaluate_book(path: Path, progress: Progress = None, *, known: dict[str, str
                 continue
             if progress:
                 progress(f"{path.name}: job {i}/{len(table.jobs)} '{job.name}'")
-            outcomes.append(_evaluate_job(book, job, known, table.sheet))
+            outcomes.append(_evaluate_job(book, job, known, table.sheet, sources.get(job.name)))
     return table, outcomes
 
 
-def _evaluate_job(book: Book, job: Any, known: dict[str, str], sheet: str) -> JobOutcome:
-    """Read and compute one job; whatever fails fails this job alone."""
+def _evaluate_job(book: Book, job: Any, known: dict[str, str], sheet: str, recorded: Any = None
+                  ) -> JobOutcome:
+    """Read and compute one job; whatever fails fails this job alone. A job whose read would see what
+    it saw at the last refresh (``recorded``, see :func:`watcher.refresh.parts.same_source`) is not read."""
     def failed(message: str, fp: str, data: Any = None) -> JobOutcome:
         return JobOutcome(job, job.name, job.output_sheet, job.profile_sheet, fp, error=message, data=data,
                           unchanged=data is None and known.get(job.name) == fp)
 
+    try:
+        source = source_key(book.path, book.resolve_sheet(job.data_sheet), dict(job.settings))
+    except ValueError:
+        source = None
+    if job.name in known and same_source(recorded, source, book.path):
+        return JobOutcome(job, job.name, job.output_sheet, job.profile_sheet, known[job.name], unchanged=True,
+                          source=source)
     try:
         data = book.read(job.data_sheet, job.columns, date_column=job.date_column,
                          text_columns=job.text_columns)
@@ -168,7 +181,7 @@ def _evaluate_job(book: Book, job: Any, known: dict[str, str], sheet: str) -> Jo
     if known.get(job.name) == fp:
         return JobOutcome(job, job.name, job.output_sheet, job.profile_sheet, fp, unchanged=True)
     try:
-        outcome = compute_job(job, data)
+        outcome = dataclasses.replace(compute_job(job, data), source=source)
     except ValueError as exc:       # the data do not allow a forecast (the message names the setting)
         return failed(str(exc), fp, data)
     except Exception as exc:        # a fault of ours: this job fails, the others go on
@@ -228,8 +241,9 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
             return rec is not None and all(s.casefold() in owned for s in rec.get("sheets", []))
 
         known = {} if force else {n: r["fingerprint"] for n, r in old.items() if intact(n)}
+        sources = {n: old[n].get("source") for n in known}
         users = [s for s in pkg.sheet_names if s.casefold() not in owned]
-        table, outcomes = evaluate_book(path, progress, known=known, taken=users)
+        table, outcomes = evaluate_book(path, progress, known=known, taken=users, sources=sources)
     except (ValueError, OSError) as exc:     # every layer's errors are ValueErrors
         return done("failed", message=describe(exc))
     disabled = {d.name for d in table.disabled if d.name}
@@ -255,7 +269,7 @@ def refresh_workbook(path: Path | str, *, force: bool = False, progress: Progres
         outcomes[i], specs = lay_out(o, refreshed_at)
         sheets.extend(specs)
         new[o.name] = {"fingerprint": o.fingerprint, "sheets": [sp.name for sp in specs],
-                       **job_record(outcomes[i])}
+                       **job_record(outcomes[i]), **({"source": o.source} if o.source else {})}
     rang = _ring(path, outcomes, new, old, dispatcher, progress)
     new = {n: _with_alert(r, rang.get(n)) for n, r in new.items()}
     reports = tuple(job_report(o, new, rang[o.name].entry) for o in outcomes)
