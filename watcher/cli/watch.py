@@ -17,7 +17,7 @@ from typing import Any
 
 from sheetfns.errors import InputError
 
-__all__ = ["add_watch_arguments", "main_watch", "run_watch"]
+__all__ = ["add_watch_arguments", "default_workers", "main_watch", "run_watch"]
 
 
 def _seconds(flag: str, *, positive: bool) -> Callable[[str], float]:
@@ -33,8 +33,24 @@ def _seconds(flag: str, *, positive: bool) -> Callable[[str], float]:
     return parse
 
 
+def default_workers() -> int:
+    """Workbooks refreshed at once by default: the number of cores, at most 4."""
+    return max(1, min(os.cpu_count() or 1, 4))
+
+
+def _workers(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        value = 0
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"`--workers` must be a whole number >= 1; got '{text}'")
+    return value
+
+
 def add_watch_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentParser:
-    """Add ``PATH... [--poll SECONDS] [--quiet SECONDS] [--no-initial] [--log FILE]`` to ``parser``."""
+    """Add ``PATH... [--poll SECONDS] [--quiet SECONDS] [--no-initial] [--log FILE] [--workers N]`` to
+    ``parser``."""
     parser.add_argument("paths", nargs="+", metavar="PATH",
                         help="folders (watched recursively) and/or .xlsx/.xlsm workbooks")
     parser.add_argument("--poll", type=_seconds("--poll", positive=True), metavar="SECONDS", default=None,
@@ -48,12 +64,17 @@ def add_watch_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentPar
                              "was not watching")
     parser.add_argument("--log", metavar="FILE", default=None,
                         help="also append one JSON object per event (refresh, waiting, start, stop) to FILE")
+    parser.add_argument("--workers", type=_workers, metavar="N", default=None,
+                        help="refresh up to N workbooks at once, each in a process of its own (default: "
+                             "the number of cores, at most 4); one workbook is never refreshed twice at once")
     return parser
 
 
 def run_watch(args: argparse.Namespace) -> int:
     """Run the watcher from parsed arguments (see ``add_watch_arguments``); returns the exit code."""
-    return main_watch(args.paths, poll=args.poll, quiet=args.quiet, initial=not args.no_initial, log=args.log)
+    workers = args.workers if args.workers is not None else default_workers()
+    return main_watch(args.paths, poll=args.poll, quiet=args.quiet, initial=not args.no_initial, log=args.log,
+                      workers=workers)
 
 
 def main_watch(
@@ -66,6 +87,7 @@ def main_watch(
     refresh: Callable[..., Any] | None = None,
     stop_event: threading.Event | None = None,
     write_grace: float = 10.0,
+    workers: int = 1,
 ) -> int:
     """Watch until SIGTERM, Ctrl-C or ``stop_event``; return 0, or 2 for bad arguments, 1 if it cannot run.
 
@@ -84,7 +106,7 @@ def main_watch(
         return 2
     try:
         watcher = Watcher(paths, refresh=refresh, quiet=quiet, poll=poll, initial=initial, log=watch_log,
-                          write_grace=write_grace)
+                          write_grace=write_grace, workers=workers)
     except InputError as exc:
         print(f"error: {exc}", file=sys.stderr)
         watch_log.close()
