@@ -4,6 +4,7 @@ Usage::
 
     python bench/watch.py [--rows 4000] [--repeats 20] [--quiet 1.0] [--poll SECONDS]
     python bench/watch.py --own-write 300000
+    python bench/watch.py --many 20
 
 A 4,000-row daily workbook (invented, seeded) with one forecast job is saved the way spreadsheet
 programs save (temporary file in the folder, renamed over the workbook) ``--repeats`` times, each time
@@ -20,6 +21,11 @@ Printed in the same run:
 (size, mtime and the SHA-256 the writer verified: ``FileProbe.is_written``) instead of refreshing it again
 to find it unchanged. Timed on a refreshed N-row workbook (bench/refresh.py's full-height sheet, cached in
 bench/out/), against the refresh that answers "unchanged" (what the watcher did before).
+
+``--many K``: K workbooks (the same 4,000-row daily workbook under K names) are saved at once, twice
+(the first round warms the workers up: a worker process imports the refresh when it starts); the time
+from the first rename of the second round to the last refreshed workbook is measured under a watcher
+with one worker and with two (``--workers 2``: worker processes), and their ratio printed.
 """
 from __future__ import annotations
 
@@ -122,6 +128,59 @@ def own_write(rows: int) -> int:
     return 0
 
 
+def _many_once(workers: int, count: int, versions: list[bytes], quiet: float) -> tuple[float, str]:
+    """Seconds from the first of ``count`` renames to the last refreshed workbook (second round)."""
+    from watcher.refresh.workbook import refresh_workbook
+    from watcher.watch.log import WatchLog
+    from watcher.watch.service import Watcher
+
+    with tempfile.TemporaryDirectory() as tmp:
+        share = Path(tmp).resolve() / "share"
+        share.mkdir()
+        books = [share / f"book{i:02d}.xlsx" for i in range(count)]
+        done: list[tuple[float, Path]] = []
+        arrived = threading.Condition()
+
+        def on_outcome(outcome) -> None:
+            if outcome.status == "refreshed":
+                with arrived:
+                    done.append((time.perf_counter(), outcome.path))
+                    arrived.notify_all()
+
+        def round_of(data: bytes) -> float:
+            with arrived:
+                done.clear()
+            first = time.perf_counter()
+            for book in books:
+                save_by_rename(book, data)
+            deadline = time.monotonic() + 600
+            with arrived:
+                while len({p for _, p in done}) < count:
+                    if time.monotonic() > deadline:
+                        raise SystemExit(f"only {len(done)} of {count} refreshed")
+                    arrived.wait(0.1)
+                return max(t for t, _ in done) - first
+
+        with Watcher([share], refresh=refresh_workbook, quiet=quiet, initial=False, log=WatchLog(None),
+                     on_outcome=on_outcome, workers=workers) as watcher:
+            round_of(versions[1])  # warm-up: worker processes import the refresh
+            while not watcher.idle():
+                time.sleep(0.05)
+            return round_of(versions[2]), watcher.workers_note
+
+
+def many(count: int, rows: int, quiet: float) -> int:
+    """K workbooks saved at once: one worker against two."""
+    versions = build_versions(rows, 3)
+    times = {}
+    for workers in (1, 2):
+        times[workers], note = _many_once(workers, count, versions, quiet)
+        print(f"  {note:20s} {count} workbooks saved at once: all refreshed after {times[workers]:6.2f} s")
+    print(f"  ratio one worker / two = {times[1] / times[2]:.2f}; after the quiet wait of {quiet:g} s: "
+          f"{(times[1] - quiet) / (times[2] - quiet):.2f}  ({os.cpu_count()} CPUs)")
+    return 0
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--rows", type=int, default=4000)
@@ -129,9 +188,13 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--quiet", type=float, default=1.0)
     parser.add_argument("--poll", type=float, default=None)
     parser.add_argument("--own-write", type=int, metavar="N", help="time recognising tocsin's own write")
+    parser.add_argument("--many", type=int, metavar="K",
+                        help="K workbooks saved at once, one worker against two")
     args = parser.parse_args(argv)
     if args.own_write:
         return own_write(args.own_write)
+    if args.many:
+        return many(args.many, args.rows, args.quiet)
 
     from watcher.refresh.workbook import refresh_workbook
     from watcher.watch.log import WatchLog

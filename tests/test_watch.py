@@ -135,6 +135,14 @@ class FakeRefresh:
         self._recorded: dict[Path, str] = {}
         self._lock = threading.Lock()
 
+    def __getstate__(self) -> dict:
+        # sent to a worker process (``workers`` > 1): the lock and the event stay behind, each process
+        # keeps calls of its own
+        return {k: v for k, v in self.__dict__.items() if k not in ("_lock", "started", "calls")}
+
+    def __setstate__(self, state: dict) -> None:
+        self.__dict__.update(state, _lock=threading.Lock(), started=threading.Event(), calls=[])
+
     def record_current(self, path: Path) -> None:
         """As if tocsin had refreshed ``path`` in an earlier run."""
         self._recorded[path] = input_digest(path)

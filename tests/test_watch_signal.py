@@ -32,13 +32,14 @@ from test_watch import FakeRefresh
 from watcher.cli.watch import main_watch
 fake = FakeRefresh(compute_s=float(sys.argv[4]), started_dir=Path(sys.argv[3]), write_s=float(sys.argv[6]))
 sys.exit(main_watch([sys.argv[2]], quiet=0.2, initial=False, log=sys.argv[5], refresh=fake,
-                    write_grace=float(sys.argv[7])))
+                    write_grace=float(sys.argv[7]), workers=int(sys.argv[8])))
 """
+WORKERS = [pytest.param(1, id="thread"), pytest.param(2, id="processes")]
 
 
 class Proc:
     def __init__(self, tmp_path: Path, compute_s: float, write_s: float = 0.0,
-                 write_grace: float = 10.0) -> None:
+                 write_grace: float = 10.0, workers: int = 1, new_group: bool = False) -> None:
         self.share = tmp_path.resolve() / "share"
         self.share.mkdir()
         self.markers = tmp_path / "markers"
@@ -47,8 +48,8 @@ class Proc:
         env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(ROOT), os.environ.get("PYTHONPATH", "")]))
         self.popen = subprocess.Popen(
             [sys.executable, "-c", SCRIPT, str(TESTS), str(self.share), str(self.markers), str(compute_s),
-             str(self.log), str(write_s), str(write_grace)],
-            env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+             str(self.log), str(write_s), str(write_grace), str(workers)],
+            env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, start_new_session=new_group)
         assert wait_for(lambda: self.events("start") or self.popen.poll() is not None, timeout=30)
         assert self.popen.poll() is None, self.popen.communicate()
 
@@ -58,9 +59,12 @@ class Proc:
         lines = self.log.read_text(encoding="utf-8").splitlines()
         return [r for r in map(json.loads, lines) if r["event"] == kind]
 
-    def signal_and_wait(self, signum: int, limit: float) -> tuple[int, float, str]:
+    def signal_and_wait(self, signum: int, limit: float, group: bool = False) -> tuple[int, float, str]:
         sent = time.monotonic()
-        self.popen.send_signal(signum)
+        if group:  # as a terminal's Ctrl-C or systemd's stop: every process of the group gets it
+            os.killpg(self.popen.pid, signum)
+        else:
+            self.popen.send_signal(signum)
         try:
             _out, err = self.popen.communicate(timeout=limit + 10)
         except subprocess.TimeoutExpired:
@@ -101,8 +105,9 @@ def test_idle_watcher_exits_zero_on_signal(proc_factory, signum, reason):
     assert stop["reason"] == reason and stop["clean"] is True
 
 
-def test_long_refresh_in_flight_is_abandoned_cleanly(proc_factory):
-    proc = proc_factory(compute_s=60.0)
+@pytest.mark.parametrize("workers", WORKERS)
+def test_long_refresh_in_flight_is_abandoned_cleanly(proc_factory, workers):
+    proc = proc_factory(compute_s=60.0, workers=workers)
     book = proc.share / "ferry.xlsx"
     save_by_rename(book, "today")
     saved = book.read_bytes()
@@ -117,8 +122,9 @@ def test_long_refresh_in_flight_is_abandoned_cleanly(proc_factory):
     assert stop["clean"] is True
 
 
-def test_short_refresh_in_flight_finishes_its_write(proc_factory):
-    proc = proc_factory(compute_s=1.0)
+@pytest.mark.parametrize("workers", WORKERS)
+def test_short_refresh_in_flight_finishes_its_write(proc_factory, workers):
+    proc = proc_factory(compute_s=1.0, workers=workers)
     book = proc.share / "ferry.xlsx"
     save_by_rename(book, "today")
     assert wait_for(lambda: (proc.markers / "started-ferry.xlsx").exists(), timeout=15)
@@ -129,10 +135,12 @@ def test_short_refresh_in_flight_finishes_its_write(proc_factory):
     assert [r["status"] for r in proc.events("refresh")] == ["refreshed"]
 
 
-def test_long_write_in_flight_is_abandoned_within_the_stop_time_and_leaves_nothing(proc_factory):
+@pytest.mark.parametrize("workers", WORKERS)
+def test_long_write_in_flight_is_abandoned_within_the_stop_time_and_leaves_nothing(proc_factory, workers):
     """A write that outlasts the write grace (here 1 s; 10 s by default) gets RefreshAbandoned raised
-    in its thread: the temporary file goes, the workbook is the one that was saved, exit 0."""
-    proc = proc_factory(compute_s=0.01, write_s=60.0, write_grace=1.0)
+    in its thread (or its worker process): the temporary file goes, the workbook is the one that was
+    saved, exit 0."""
+    proc = proc_factory(compute_s=0.01, write_s=60.0, write_grace=1.0, workers=workers)
     book = proc.share / "ferry.xlsx"
     save_by_rename(book, "today")
     saved = book.read_bytes()
@@ -160,3 +168,20 @@ def test_bad_path_is_an_error_message_not_a_traceback(tmp_path):
                          env=env, capture_output=True, text=True, timeout=60)
     assert bad.returncode == 2 and "`--poll` must be a number of seconds > 0; got 'soon'" in bad.stderr
 
+
+@pytest.mark.parametrize("signum", [signal.SIGTERM, signal.SIGINT])
+def test_signal_to_the_whole_group_leaves_the_write_to_the_watcher(proc_factory, signum):
+    # worker processes ignore a signal that reaches them directly (systemd's stop, a terminal's Ctrl-C)
+    # until the watcher asks them to abandon: the short refresh in flight still finishes its write
+    proc = proc_factory(compute_s=1.5, workers=2, new_group=True)
+    book = proc.share / "ferry.xlsx"
+    save_by_rename(book, "today")
+    assert wait_for(lambda: (proc.markers / "started-ferry.xlsx").exists(), timeout=30)
+    code, took, err = proc.signal_and_wait(signum, limit=4.0, group=True)
+    assert code == 0 and took < 4.0, err
+    assert "2 worker processes" in err and "Traceback" not in err
+    with zipfile.ZipFile(book) as z:
+        assert z.read(MARKER).decode() == digest_of("today")
+    assert [r["status"] for r in proc.events("refresh")] == ["refreshed"]
+    [stop] = proc.events("stop")
+    assert stop["clean"] is True

@@ -19,7 +19,7 @@ from sheetfns.errors import InputError
 from watcher.alert.errors import AlertOptionError
 from watcher.alert.options import add_alert_arguments, dispatcher_from_args
 
-__all__ = ["add_watch_arguments", "main_watch", "run_watch"]
+__all__ = ["add_watch_arguments", "default_workers", "main_watch", "run_watch"]
 
 
 def _seconds(flag: str, *, positive: bool) -> Callable[[str], float]:
@@ -35,8 +35,24 @@ def _seconds(flag: str, *, positive: bool) -> Callable[[str], float]:
     return parse
 
 
+def default_workers() -> int:
+    """Workbooks refreshed at once by default: the number of cores, at most 4."""
+    return max(1, min(os.cpu_count() or 1, 4))
+
+
+def _workers(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        value = 0
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"`--workers` must be a whole number >= 1; got '{text}'")
+    return value
+
+
 def add_watch_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentParser:
-    """Add ``PATH... [--poll SECONDS] [--quiet SECONDS] [--no-initial] [--log FILE]`` to ``parser``."""
+    """Add ``PATH... [--poll SECONDS] [--quiet SECONDS] [--no-initial] [--log FILE] [--workers N]`` to
+    ``parser``."""
     parser.add_argument("paths", nargs="+", metavar="PATH",
                         help="folders (watched recursively) and/or .xlsx/.xlsm workbooks")
     parser.add_argument("--poll", type=_seconds("--poll", positive=True), metavar="SECONDS", default=None,
@@ -51,6 +67,9 @@ def add_watch_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentPar
     parser.add_argument("--log", metavar="FILE", default=None,
                         help="also append one JSON object per event (refresh, alert, alert-failed, waiting, "
                              "start, stop) to FILE")
+    parser.add_argument("--workers", type=_workers, metavar="N", default=None,
+                        help="refresh up to N workbooks at once, each in a process of its own (default: "
+                             "the number of cores, at most 4); one workbook is never refreshed twice at once")
     add_alert_arguments(parser)
     return parser
 
@@ -62,17 +81,22 @@ def run_watch(args: argparse.Namespace) -> int:
     except AlertOptionError as exc:
         print(f"error: {exc}", file=sys.stderr)
         return 2
+    workers = args.workers if args.workers is not None else default_workers()
     return main_watch(args.paths, poll=args.poll, quiet=args.quiet, initial=not args.no_initial, log=args.log,
-                      dispatcher=dispatcher)
+                      dispatcher=dispatcher, workers=workers)
 
 
-def _alerting_refresh(dispatcher: Any) -> Callable[..., Any]:
-    """The refresh with the alert channels; the refresh is imported at the first call (see
+class AlertingRefresh:
+    """The refresh with the alert channels. A module-level class, so a worker process can receive it
+    (pickled by reference, with the dispatcher); the refresh is imported at the first call (see
     :func:`watcher.watch.service._load_refresh`), not when the command starts."""
-    def refresh(path: Any, **options: Any) -> Any:
+
+    def __init__(self, dispatcher: Any) -> None:
+        self.dispatcher = dispatcher
+
+    def __call__(self, path: Any, **options: Any) -> Any:
         from watcher.refresh.workbook import refresh_workbook
-        return refresh_workbook(path, dispatcher=dispatcher, **options)
-    return refresh
+        return refresh_workbook(path, dispatcher=self.dispatcher, **options)
 
 
 def main_watch(
@@ -86,6 +110,7 @@ def main_watch(
     stop_event: threading.Event | None = None,
     write_grace: float = 10.0,
     dispatcher: Any = None,
+    workers: int = 1,
 ) -> int:
     """Watch until SIGTERM, Ctrl-C or ``stop_event``; return 0, or 2 for bad arguments, 1 if it cannot run.
 
@@ -104,10 +129,10 @@ def main_watch(
         print(f"error: {exc}", file=sys.stderr)
         return 2
     if refresh is None and dispatcher is not None:
-        refresh = _alerting_refresh(dispatcher)
+        refresh = AlertingRefresh(dispatcher)
     try:
         watcher = Watcher(paths, refresh=refresh, quiet=quiet, poll=poll, initial=initial, log=watch_log,
-                          write_grace=write_grace)
+                          write_grace=write_grace, workers=workers)
     except InputError as exc:
         print(f"error: {exc}", file=sys.stderr)
         watch_log.close()

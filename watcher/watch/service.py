@@ -8,7 +8,10 @@ Three roles, three threads of control:
 * the **debouncer** (``watcher.watch.debounce.Debouncer``) keeps one deadline per workbook, restarts it on
   every event, and hands a workbook on once it has been quiet for ``--quiet`` seconds, its size and mtime are
   stable, no owner file says a person has it open, and it opens as a complete zip package;
-* the **refresh worker** (``watcher.watch.worker.RefreshWorker``) refreshes one workbook at a time.
+* the **refresh worker** (``watcher.watch.worker.RefreshWorker``) refreshes one workbook at a time per
+  worker; with ``workers`` > 1 each worker runs its refreshes in a process of its own
+  (:mod:`watcher.watch.procs`), so independent workbooks are refreshed in parallel, and never two
+  refreshes of one workbook at once.
 
 No loops: tocsin's own write changes the file, so it comes back through the debouncer. The watcher
 keeps the fingerprint of every file it wrote (size, mtime and the SHA-256 the writer verified) and
@@ -35,6 +38,7 @@ from sheetfns.errors import InputError
 from watcher.watch.debounce import Debouncer
 from watcher.watch.log import WatchLog
 from watcher.watch.probe import FileProbe
+from watcher.watch.procs import Child, can_run_in_process
 from watcher.watch.worker import Outcome, RefreshWorker
 from watcher.xlsx.names import is_workbook_name, workbook_of_owner_file
 
@@ -113,7 +117,8 @@ class Watcher:
     log : WatchLog, optional
         Where lines go (default: stderr only).
     workers : int
-        Refresh threads (one workbook at a time by default).
+        Workbooks refreshed at once (one by default). Above one, each refresh runs in a worker process
+        when ``refresh`` can be sent to one (a module-level function, as the default), else on a thread.
     probe : FileProbe, optional
         The debouncer's file checks (tests may pass a fake).
     on_outcome : callable(Outcome), optional
@@ -145,6 +150,8 @@ class Watcher:
             raise InputError(f"`--poll` must be a number of seconds > 0; got {poll!r}")
         if not quiet >= 0:
             raise InputError(f"`--quiet` must be a number of seconds >= 0; got {quiet!r}")
+        if isinstance(workers, bool) or not isinstance(workers, int) or workers < 1:
+            raise InputError(f"`--workers` must be a whole number >= 1; got {workers!r}")
         self.folders: list[Path] = []
         self.workbooks: list[Path] = []
         for raw in paths:
@@ -173,6 +180,8 @@ class Watcher:
         self._stopped = False
         self._lock = threading.Lock()
         self._written: dict[Path, Any] = {}  # workbook -> fingerprint of the file tocsin last wrote there
+        self._file_probe: FileProbe | None = None
+        self.workers_note = ""
         self.how = ""
 
     # -- life cycle ----------------------------------------------------------------------------------
@@ -180,18 +189,18 @@ class Watcher:
         """Start the worker, the debouncer and the observer; log the startup line; queue the initial pass."""
         refresh = self._refresh if self._refresh is not None else _load_refresh()
         probe = self._probe if self._probe is not None else FileProbe()
-
-        def refresh_unless_own(path: Path, **kwargs: Any) -> Any:
-            with self._lock:
-                written = self._written.pop(path, None)
-            if written is not None and probe.is_written(path, written):
-                with self._lock:
-                    self._written.setdefault(path, written)  # still ours until it changes
-                return _OwnWrite(path)
-            return refresh(path, **kwargs)
-
+        self._file_probe = probe
+        children = None
+        if self._workers > 1 and can_run_in_process(refresh):
+            children = [Child(refresh) for _ in range(self._workers)]
+            for child in children:
+                child.start()
+        kind = "process" if children else "thread"
+        self.workers_note = (f"{self._workers} worker {kind}{'es' if children else 's'}"
+                             if self._workers > 1 else "1 worker")
         self._worker = RefreshWorker(
-            refresh_unless_own, on_outcome=self._outcome, workers=self._workers,
+            refresh, on_outcome=self._outcome, workers=self._workers, skip=self._own_write,
+            children=children,
             still_ready=lambda path: probe.owner(path) is None,  # opened while queued? wait again
             on_deferred=lambda path: self._debouncer.submit(path, delay=0.0) if self._debouncer else None,
         )
@@ -213,9 +222,9 @@ class Watcher:
         self._log.event(
             "start",
             f"tocsin watch: watching {', '.join(watched)}; {self.how}; quiet {self._quiet:g} s; "
-            f"initial refresh {'on' if self._initial else 'off'}",
+            f"initial refresh {'on' if self._initial else 'off'}; {self.workers_note}",
             folders=[str(p) for p in self.folders], workbooks=[str(p) for p in self.workbooks],
-            observer=self.how, quiet_s=self._quiet, initial=self._initial,
+            observer=self.how, quiet_s=self._quiet, initial=self._initial, workers=self._workers,
         )
         if self._initial:
             for path in self.existing_workbooks():
@@ -306,6 +315,17 @@ class Watcher:
         return observer
 
     # -- callbacks -----------------------------------------------------------------------------------
+    def _own_write(self, path: Path) -> Any:
+        """On a worker thread: the report for ``path`` when it still is the file tocsin wrote last (no
+        refresh then), else None."""
+        with self._lock:
+            written = self._written.pop(path, None)
+        if written is not None and self._file_probe.is_written(path, written):
+            with self._lock:
+                self._written.setdefault(path, written)  # still ours until it changes
+            return _OwnWrite(path)
+        return None
+
     def _forward(self, raw: str) -> None:
         """On the observer thread: map a path to the workbook it concerns and note the event. No I/O."""
         path = Path(raw)

@@ -28,7 +28,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-__all__ = ["Outcome", "RefreshAbandoned", "RefreshWorker"]
+__all__ = ["Outcome", "RefreshAbandoned", "RefreshWorker", "attempt"]
 
 _logger = logging.getLogger(__name__)
 
@@ -115,15 +115,26 @@ class RefreshWorker:
         False (say, the workbook has been opened meanwhile) the path goes to ``on_deferred`` instead.
     on_deferred : callable(Path), optional
         Where a path that is no longer ready goes (back to the debouncer).
+    skip : callable(Path) -> report or None, optional
+        Asked on the worker thread before each refresh: a report to use instead of refreshing (the
+        watcher's own write coming back), or None to refresh.
+    children : list, optional
+        One worker process per thread (:class:`watcher.watch.procs.Child`, started): each refresh runs
+        in the thread's process, the thread only waits for it (``workers`` is then their number).
     """
 
     def __init__(
         self, refresh: RefreshFn, *, on_outcome: Callable[[Outcome], None], workers: int = 1,
         still_ready: Callable[[Path], bool] | None = None, on_deferred: Callable[[Path], None] | None = None,
+        skip: Callable[[Path], Any] | None = None, children: list[Any] | None = None,
     ) -> None:
+        if children:
+            workers = len(children)
         if workers < 1:
             raise ValueError(f"`workers` must be at least 1; got {workers!r}")
         self._refresh = refresh
+        self._skip = skip
+        self._children: list[Any] = list(children or ())
         self._on_outcome = on_outcome
         self._still_ready = still_ready
         self._on_deferred = on_deferred
@@ -140,7 +151,9 @@ class RefreshWorker:
     def start(self) -> None:
         """Start the worker threads."""
         for i in range(self._workers):
-            thread = threading.Thread(target=self._run, name=f"tocsin-refresh-{i}", daemon=True)
+            child = self._children[i] if self._children else None
+            thread = threading.Thread(target=self._run, args=(child,), name=f"tocsin-refresh-{i}",
+                                      daemon=True)
             thread.start()
             self._threads.append(thread)
 
@@ -197,7 +210,17 @@ class RefreshWorker:
             deadline = time.monotonic() + abandon_wait / 2
             for thread in self._threads:
                 thread.join(max(deadline - time.monotonic(), 0.0))
+        for child in self._children:
+            child.close()
         return dropped, not any(t.is_alive() for t in self._threads)
+
+    def abandoning(self) -> bool:
+        """True once the stop asks the refresh in flight to abandon (a worker process polls it)."""
+        return self._abandon.is_set()
+
+    def writing(self) -> None:
+        """The refresh of the calling thread has begun its write (said by its worker process)."""
+        self._writing.add(threading.get_ident())
 
     def progress(self, *_args: object, final: bool = False, **_kwargs: object) -> None:
         """The ``progress`` callback handed to the refresh: raises ``RefreshAbandoned`` when stopping.
@@ -220,7 +243,7 @@ class RefreshWorker:
                         return path
                 self._cond.wait()
 
-    def _run(self) -> None:
+    def _run(self, child: Any = None) -> None:
         while True:
             path = self._take()
             if path is None:
@@ -230,7 +253,7 @@ class RefreshWorker:
                         and not self._still_ready(path):
                     self._on_deferred(path)
                     continue
-                outcome = self._attempt(path)
+                outcome = self._attempt(path, child)
                 try:
                     self._on_outcome(outcome)
                 except Exception:
@@ -245,19 +268,31 @@ class RefreshWorker:
                             self._queue.append(path)
                     self._cond.notify_all()
 
-    def _attempt(self, path: Path) -> Outcome:
-        start = time.perf_counter()
-        try:
-            report = self._refresh(path, progress=self.progress)
-        except RefreshAbandoned:
-            return Outcome(path, "abandoned", "the watcher is stopping; the refresh was abandoned and "
-                                             "nothing was written", time.perf_counter() - start)
-        except ValueError as exc:  # every layer's errors (the writer's included) are ValueErrors
-            return Outcome(path, "failed", str(exc), time.perf_counter() - start)
-        except Exception as exc:
-            return Outcome(path, "failed", f"unexpected error ({type(exc).__name__}: {exc})",
-                           time.perf_counter() - start, traceback=traceback.format_exc())
-        return Outcome.from_report(path, report, time.perf_counter() - start)
+    def _attempt(self, path: Path, child: Any = None) -> Outcome:
+        if self._skip is not None:
+            start = time.perf_counter()
+            report = self._skip(path)
+            if report is not None:
+                return Outcome.from_report(path, report, time.perf_counter() - start)
+        if child is not None:
+            return child.run(path, self)
+        return attempt(self._refresh, path, self.progress)
+
+
+def attempt(refresh: RefreshFn, path: Path, progress: Callable[..., None]) -> Outcome:
+    """``refresh(path, progress=progress)`` as one :class:`Outcome`, whatever happens inside it."""
+    start = time.perf_counter()
+    try:
+        report = refresh(path, progress=progress)
+    except RefreshAbandoned:
+        return Outcome(path, "abandoned", "the watcher is stopping; the refresh was abandoned and "
+                                         "nothing was written", time.perf_counter() - start)
+    except ValueError as exc:  # every layer's errors (the writer's included) are ValueErrors
+        return Outcome(path, "failed", str(exc), time.perf_counter() - start)
+    except Exception as exc:
+        return Outcome(path, "failed", f"unexpected error ({type(exc).__name__}: {exc})",
+                       time.perf_counter() - start, traceback=traceback.format_exc())
+    return Outcome.from_report(path, report, time.perf_counter() - start)
 
 
 def _raise_in(thread: threading.Thread, exc: type[BaseException]) -> bool:
