@@ -121,7 +121,10 @@ def test_a_failing_command_is_logged_retried_and_the_watcher_carries_on(tmp_path
         (data,) = versions(book, scratch, [1])
         save_by_rename(book, data)
         assert wait_for(lambda: len(events("alert-failed")) == 2, TIMEOUT), log.read_text()
-        assert [e["status"] for e in events("refresh")][:2] == ["refreshed", "refreshed"]
+        # (the second refresh may find its inputs unchanged: the saved version can equal the data, and
+        # a refresh that only retries an alert writes nothing but tocsin's record)
+        first, second = [e["status"] for e in events("refresh")][:2]
+        assert first == "refreshed" and second in ("refreshed", "unchanged")
     finally:
         stop.set()
         thread.join(30)
