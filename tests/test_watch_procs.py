@@ -111,3 +111,32 @@ def test_unpicklable_refresh_runs_on_threads(share):
 
 def test_default_workers_is_the_cores_at_most_four():
     assert default_workers() == max(1, min(os.cpu_count() or 1, 4))
+
+
+def test_worker_processes_do_not_run_the_watchers_main_script_again(tmp_path):
+    # a watcher started from a script read on stdin (no file to import again, no __main__ guard): the
+    # worker processes start from watcher.watch.procs alone, never from the caller's main script
+    import subprocess
+    import sys
+
+    (tmp_path / "share").mkdir()
+    (tmp_path / "notes").mkdir()
+    script = f"""
+import sys, time
+sys.path.insert(0, {str(Path(__file__).parent)!r})
+from test_watch import save_by_rename, wait_for
+from test_watch_procs import TimedRefresh
+from watcher.watch.log import WatchLog
+from watcher.watch.service import Watcher
+refresh = TimedRefresh({str(tmp_path / "notes")!r}, compute_s=0.05)
+share = __import__("pathlib").Path({str(tmp_path / "share")!r})
+with Watcher([share], refresh=refresh, workers=2, quiet=0.2, initial=False, log=WatchLog(None)) as w:
+    for i in range(3):
+        save_by_rename(share / f"b{{i}}.xlsx", "v1")
+    ok = wait_for(lambda: len(refresh.intervals()) == 3 and w.idle(), timeout=60)
+print("MAIN RAN", ok)
+"""
+    out = subprocess.run([sys.executable, "-"], input=script, capture_output=True, text=True, timeout=120)
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.count("MAIN RAN") == 1 and "MAIN RAN True" in out.stdout
+    assert "Traceback" not in out.stderr

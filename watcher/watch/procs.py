@@ -1,42 +1,54 @@
 """Refreshes in worker processes (``tocsin watch --workers N``): independent workbooks in parallel.
 
 A refresh is CPU-bound Python (threads gain nothing), so with more than one worker every worker thread
-of :class:`watcher.watch.worker.RefreshWorker` owns one long-lived process (the ``spawn`` start method:
-a fresh interpreter, safe beside the watcher's threads), sends it one workbook at a time over a pipe
-and waits for its :class:`~watcher.watch.worker.Outcome`. The worker's queue still hands a workbook to
-one thread at a time, so no two refreshes of one workbook ever run at once.
+of :class:`watcher.watch.worker.RefreshWorker` owns one long-lived process, sends it one workbook at a
+time and waits for its :class:`~watcher.watch.worker.Outcome`. The worker's queue still hands a
+workbook to one thread at a time, so no two refreshes of one workbook ever run at once.
 
-Stopping keeps the watcher's rules (:mod:`watcher.watch.worker`): the process reports through a shared
-flag when its refresh has begun its write (it then gets the write grace); to abandon, the thread sets
-the process's abandon event, which the refresh's next ``progress`` call turns into ``RefreshAbandoned``;
-a process that does not call it soon gets SIGTERM, whose handler raises the same exception there (the
-writer then removes its temporary file). SIGTERM and SIGINT that reach a process directly (systemd stops
-a whole control group; Ctrl-C signals the terminal's process group) are ignored until the watcher itself
-asks to abandon, so the watcher alone decides what the refresh in flight gets. A process that dies is
-reported as a failed refresh and replaced. A process whose parent dies sees its pipe close and exits.
+The process is a fresh interpreter (``python -c``, importing the refresh by reference) joined to the
+watcher by a socket pair (``multiprocessing.connection``, pickled messages): not ``multiprocessing``'s
+own processes, which run the watcher's main script again in every process (a script without an
+``if __name__ == "__main__"`` guard, or one read from stdin, would break them). POSIX only; elsewhere the
+watcher keeps its threads. Messages: the refresh function, then a path at a time; back come "writing"
+(the refresh has begun its write) and ``("done", outcome)``.
+
+Stopping keeps the watcher's rules (:mod:`watcher.watch.worker`): a process that said "writing" gets the
+write grace; to abandon, the thread sends SIGUSR1, which makes the refresh's next ``progress`` call raise
+``RefreshAbandoned``; a process that does not call it soon gets SIGTERM, whose handler then raises the
+same exception there (the writer removes its temporary file). SIGTERM and SIGINT that reach a process
+directly (systemd stops a whole control group; Ctrl-C signals the terminal's process group) are ignored
+until the watcher itself asks to abandon, so the watcher alone decides what the refresh in flight gets;
+they are blocked while a process starts. A process that dies is reported as a failed refresh and
+replaced; one whose watcher dies sees its socket close and exits.
 """
 from __future__ import annotations
 
-import multiprocessing
+import json
 import os
 import pickle
 import signal
+import subprocess
+import sys
 import time
+from multiprocessing.connection import Connection, Pipe
 from pathlib import Path
 from typing import Any
 
 from watcher.watch.worker import Outcome, RefreshAbandoned, attempt
 
-__all__ = ["Child", "can_run_in_process"]
+__all__ = ["Child", "can_run_in_process", "serve"]
 
-_CONTEXT = multiprocessing.get_context("spawn")
-_STOPS = {signal.SIGINT, signal.SIGTERM}
 _ANSWER_S = 1.0  # how long an abandoned process may take to answer SIGTERM before it is killed
+_SIGNALS = ("SIGINT", "SIGTERM", "SIGUSR1")
+_START = ("import sys, json; sys.path[:0] = json.loads(sys.argv[1]); "
+          "from watcher.watch.procs import serve; serve(int(sys.argv[2]))")
 
 
 def can_run_in_process(refresh: Any) -> bool:
-    """Whether ``refresh`` can be sent to a worker process (pickled by reference, a module-level
-    function such as ``watcher.refresh.workbook.refresh_workbook``)."""
+    """Whether ``refresh`` can run in a worker process: a POSIX system, and ``refresh`` picklable (by
+    reference: a module-level function such as ``watcher.refresh.workbook.refresh_workbook``)."""
+    if os.name != "posix" or not hasattr(signal, "pthread_sigmask"):
+        return False
     try:
         pickle.dumps(refresh)
     except Exception:  # noqa: BLE001 - any failure to pickle means: run it on threads
@@ -44,38 +56,46 @@ def can_run_in_process(refresh: Any) -> bool:
     return True
 
 
-def _serve(conn: Any, refresh: Any, abandon: Any, writing: Any) -> None:
-    """The worker process: refresh the workbooks that come over ``conn`` until it closes."""
+def _stops() -> set[signal.Signals]:
+    return {getattr(signal, name) for name in _SIGNALS}
+
+
+def serve(fd: int) -> None:
+    """The worker process: refresh the workbooks that come over the socket ``fd`` until it closes."""
+    conn = Connection(fd)
+    asked = {"abandon": False}
+
+    def on_usr1(_signum: int, _frame: object) -> None:
+        asked["abandon"] = True
+
     def on_term(_signum: int, _frame: object) -> None:
-        if abandon.is_set():
+        if asked["abandon"]:
             raise RefreshAbandoned
 
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    signal.signal(signal.SIGUSR1, on_usr1)
     signal.signal(signal.SIGTERM, on_term)
-    if hasattr(signal, "pthread_sigmask"):  # blocked by Child.start until these handlers stood
-        signal.pthread_sigmask(signal.SIG_UNBLOCK, _STOPS)
+    signal.pthread_sigmask(signal.SIG_UNBLOCK, _stops())  # blocked by Child.start until now
 
     def progress(*_args: object, final: bool = False, **_kwargs: object) -> None:
-        if abandon.is_set():
+        if asked["abandon"]:
             raise RefreshAbandoned
         if final:
-            writing.value = 1
+            conn.send("writing")
 
-    while True:
-        try:
+    try:
+        refresh = conn.recv()
+        while True:
             path = conn.recv()
-        except (EOFError, OSError):
-            return
-        if path is None:
-            return
-        try:
-            outcome = attempt(refresh, path, progress)
-        except RefreshAbandoned:  # SIGTERM between the refresh's own try and here
-            outcome = _abandoned(path, 0.0)
-        try:
-            conn.send(outcome)
-        except (OSError, RefreshAbandoned):
-            return
+            if path is None:
+                return
+            try:
+                outcome = attempt(refresh, path, progress)
+            except RefreshAbandoned:  # SIGTERM just outside the refresh's own try
+                outcome = _abandoned(path, 0.0)
+            conn.send(("done", outcome))
+    except (EOFError, OSError, RefreshAbandoned):
+        return
 
 
 def _abandoned(path: Path, seconds: float) -> Outcome:
@@ -84,77 +104,85 @@ def _abandoned(path: Path, seconds: float) -> Outcome:
 
 
 class Child:
-    """One worker process and its pipe, used by one worker thread at a time."""
+    """One worker process and its socket, used by one worker thread at a time."""
 
     def __init__(self, refresh: Any) -> None:
         self._refresh = refresh
-        self._proc: Any = None
+        self._proc: subprocess.Popen | None = None
         self._conn: Any = None
-        self._abandon: Any = None
-        self._writing: Any = None
 
     def start(self) -> None:
         """Start the process (it imports the refresh while the watcher goes on)."""
-        ours, theirs = _CONTEXT.Pipe()
-        self._abandon = _CONTEXT.Event()
-        self._writing = _CONTEXT.Value("b", 0, lock=False)
-        self._proc = _CONTEXT.Process(target=_serve, name="tocsin-refresh-process", daemon=True,
-                                      args=(theirs, self._refresh, self._abandon, self._writing))
-        # the new process starts with SIGINT and SIGTERM blocked (a signal mask survives fork and exec),
-        # so one that reaches it while it imports cannot end it before _serve's handlers stand
-        masked = hasattr(signal, "pthread_sigmask")
-        old = signal.pthread_sigmask(signal.SIG_BLOCK, _STOPS) if masked else None
+        ours, theirs = Pipe()
+        fd = theirs.fileno()
+        # the new process starts with these signals blocked (a signal mask survives fork and exec), so
+        # one that reaches it while it imports cannot end it before serve's handlers stand
+        old = signal.pthread_sigmask(signal.SIG_BLOCK, _stops())
         try:
-            self._proc.start()
+            self._proc = subprocess.Popen([sys.executable, "-c", _START, json.dumps(sys.path), str(fd)],
+                                          pass_fds=(fd,), stdin=subprocess.DEVNULL)
         finally:
-            if masked:
-                signal.pthread_sigmask(signal.SIG_SETMASK, old)
-        theirs.close()
+            signal.pthread_sigmask(signal.SIG_SETMASK, old)
+            theirs.close()
         self._conn = ours
+        self._conn.send(self._refresh)
 
     def run(self, path: Path, worker: Any) -> Outcome:
         """Refresh ``path`` in the process; ``worker`` (the RefreshWorker) says when to abandon and is
         told when the refresh has begun its write."""
-        if self._proc is None or not self._proc.is_alive():
+        if self._proc is None or self._proc.poll() is not None:
             self.close()
             self.start()
         start = time.perf_counter()
-        self._writing.value = 0
+        asked = False
         try:
             self._conn.send(path)
-            while not self._conn.poll(0.05):
-                if worker.abandoning():
-                    self._abandon.set()   # the refresh's next progress call raises RefreshAbandoned
-                if self._writing.value:
-                    worker.writing()
-                if not self._proc.is_alive():
+            while True:
+                if self._conn.poll(0.05):
+                    msg = self._conn.recv()
+                    if msg == "writing":
+                        worker.writing()
+                        continue
+                    return msg[1]
+                if worker.abandoning() and not asked:
+                    self._signal(signal.SIGUSR1)   # the refresh's next progress call raises
+                    asked = True
+                if self._proc.poll() is not None:
                     return self._died(path, start)
-            return self._conn.recv()
         except (EOFError, OSError):
             return self._died(path, start)
         except RefreshAbandoned:          # raised in this thread by the worker's stop: make it so there
             return self._stop_refresh(path, start)
 
-    def _stop_refresh(self, path: Path, start: float) -> Outcome:
-        self._abandon.set()
-        if self._proc is not None and self._proc.is_alive():
+    def _signal(self, signum: int) -> None:
+        if self._proc is not None and self._proc.poll() is None:
             try:
-                os.kill(self._proc.pid, signal.SIGTERM)   # raises RefreshAbandoned in the process
+                self._proc.send_signal(signum)
             except OSError:
                 pass
-            try:
-                if self._conn.poll(_ANSWER_S):
-                    return self._conn.recv()
-            except (EOFError, OSError):
-                pass
+
+    def _stop_refresh(self, path: Path, start: float) -> Outcome:
+        self._signal(signal.SIGUSR1)
+        self._signal(signal.SIGTERM)   # raises RefreshAbandoned in the process, which then answers
+        deadline = time.monotonic() + _ANSWER_S
+        try:
+            while (left := deadline - time.monotonic()) > 0 and self._conn.poll(left):
+                msg = self._conn.recv()
+                if msg != "writing":
+                    return msg[1]
+        except (EOFError, OSError):
+            pass
+        if self._proc is not None and self._proc.poll() is None:
             self._proc.kill()
         return _abandoned(path, time.perf_counter() - start)
 
     def _died(self, path: Path, start: float) -> Outcome:
         code = None
         if self._proc is not None:
-            self._proc.join(1.0)  # its pipe may close before its exit status is there
-            code = self._proc.exitcode
+            try:
+                code = self._proc.wait(1.0)  # its socket may close before its exit status is there
+            except subprocess.TimeoutExpired:
+                pass
         self.close()
         return Outcome(path, "failed", f"the refresh process ended unexpectedly (exit code {code}); "
                                        "nothing was written", time.perf_counter() - start)
@@ -169,9 +197,10 @@ class Child:
             except (OSError, ValueError):
                 pass
         if proc is not None:
-            proc.join(wait)
-            if proc.is_alive():
+            try:
+                proc.wait(wait)
+            except subprocess.TimeoutExpired:
                 proc.kill()
-                proc.join(1.0)
+                proc.wait(1.0)
         if conn is not None:
             conn.close()
