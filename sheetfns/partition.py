@@ -54,8 +54,8 @@ class Gap:
 
 @dataclass(frozen=True)
 class Split:
-    """The periods of a series. Sizes are row counts; positions are 0-based; dates are pandas
-    Timestamps (None when the index is a row count).
+    """The periods of a series. Sizes are row counts; positions are 0-based; dates are
+    ``datetime.datetime`` values (None when the index is a row count).
 
     Attributes
     ----------
@@ -63,7 +63,7 @@ class Split:
         Rows in the training period, the validation period, and after the last observation.
     n : int
         All rows (``train_size + valid_size + future_size``).
-    first_valid_date, last_observed_date : Timestamp or None
+    first_valid_date, last_observed_date : datetime.datetime or None
     frequency : str or None
         One of :data:`FREQUENCIES` or None (see :func:`infer_frequency`).
     gaps : tuple of Gap
@@ -302,13 +302,17 @@ def default_cycle(freq: str | None) -> float | None:
     return _CYCLE.get(freq or "")
 
 
+def _moment(d: np.datetime64) -> _dt.datetime:
+    """A datetime64 as a ``datetime.datetime`` (microseconds; no pandas on the refresh path)."""
+    return d.astype("datetime64[us]").item()
+
+
 def _gaps(d: np.ndarray, freq: str | None) -> tuple[Gap, ...]:
     if freq is None or d.size < 2:
         return ()
-    import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
     step = steps(d, freq)
     where = np.flatnonzero(step > 1)
-    return tuple(Gap(row=int(i) + 2, before=pd.Timestamp(d[i]), after=pd.Timestamp(d[i + 1]),
+    return tuple(Gap(row=int(i) + 2, before=_moment(d[i]), after=_moment(d[i + 1]),
                      missing=int(step[i]) - 1) for i in where)
 
 
@@ -457,10 +461,9 @@ def split(index: Any, validation: Any = None, *, events: Any = None) -> Split:
     freq = gaps = None
     first_date = last_date = None
     if dates is not None:
-        import pandas as pd  # lazy: pandas adds ~1.5 s to start-up (DEVELOPERS.md, The core)
         freq = detect(dates)
         gaps = _gaps(dates, freq)
-        first_date, last_date = pd.Timestamp(dates[train]), pd.Timestamp(dates[n_obs - 1])
+        first_date, last_date = _moment(dates[train]), _moment(dates[n_obs - 1])
         if freq is None:
             notes.append(_IRREGULAR)
         elif gaps:

@@ -73,7 +73,12 @@ def shift(a: np.ndarray, k: int) -> np.ndarray:
 
 def time_axis(dates: Any, n: int) -> TimeAxis:
     """Read ``dates`` (datetimes, date strings, or spreadsheet serial day numbers) into a time axis."""
-    raw = dates.to_numpy() if hasattr(dates, "to_numpy") else np.asarray(dates, dtype=object)
+    if hasattr(dates, "to_numpy"):
+        raw = dates.to_numpy()
+    elif isinstance(dates, np.ndarray) and dates.dtype.kind == "M":
+        raw = dates                     # datetime64 as it comes (an object array would go via pandas)
+    else:
+        raw = np.asarray(dates, dtype=object)
     if raw.ndim != 1:
         raw = raw.reshape(-1) if raw.ndim == 2 and 1 in raw.shape else raw
     if raw.ndim != 1:
