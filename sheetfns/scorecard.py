@@ -40,6 +40,7 @@ from __future__ import annotations
 import math
 import warnings
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Any
 
 import numpy as np
@@ -152,14 +153,19 @@ class Evaluation:
     best: str | None  # the method the verdict names (lowest Brier with positive skill), or None
     comparisons: dict[str, float]  # McNemar / Diebold-Mariano of each model vs the best benchmark etc.
     verdict: str
-    coefficients: Any  # the logistic coefficient table
+    logit_fit: Any  # the LogitFit behind the logistic coefficient table (None without the model)
     notes: tuple[str, ...] = field(default_factory=tuple)
-    reliability: Any = None  # reliability table of the logistic validation probabilities
+    reliability: Any = None  # scores.brier_parts of the logistic validation probabilities
     roc: Any = None  # ROC points of the logistic validation probabilities
     horizon: int = 1
     warnings: tuple[str, ...] = ()  # the validation period unlike the training period, too few events
     value_model: Any = None  # the value model's ValueForecast (coefficient table, residual scale)
     lowest: str | None = None  # the method with the lowest validation Brier score (ties: simpler)
+
+    @cached_property
+    def coefficients(self) -> Any:
+        """The logistic coefficient table (a pandas DataFrame, made when first asked for), or None."""
+        return None if self.logit_fit is None else logistic.coefficient_table(self.logit_fit)
 
     @property
     def residual_method(self) -> str:
@@ -309,7 +315,7 @@ def _cutoff(prob: np.ndarray, cutoff: float) -> np.ndarray:
 @dataclass
 class _Runs:
     methods: list[Method]
-    coefficients: Any = None
+    logit_fit: Any = None
     notes: list[str] = field(default_factory=list)
     value_model: Any = None
 
@@ -409,7 +415,7 @@ def run_methods(events: np.ndarray, *, train_size: int, settings: Settings, date
             train_size=train_size, horizon=h, lags=settings.lags, cycle=settings.cycle,
             harmonics=settings.harmonics, weekday=settings.weekday, refit=settings.refit), out.notes)
         if fc is not None:
-            out.coefficients = fc.coefficients
+            out.logit_fit = fc.table_fit
             out.notes.extend(_prefixed("logistic model", fc.notes))
             add("logistic", fc.prob)
     if criterion is None or raw_values is None:
@@ -505,7 +511,7 @@ def evaluate(events: Any, *, train_size: int, settings: Settings | None = None, 
             warnings.simplefilter("ignore")
             ok = ~np.isnan(actual) & ~np.isnan(byname["logistic"].prob[valid])
             if ok.sum() >= 2:
-                reliability = scores.brier_decomposition(actual[ok], byname["logistic"].prob[valid][ok])
+                reliability = scores.brier_parts(actual[ok], byname["logistic"].prob[valid][ok])
                 roc = scores.roc_points(actual[ok], byname["logistic"].prob[valid][ok])
     if best is not None and best != "majority":
         comparisons.update(_compare(actual, byname[best], byname["majority"], valid, settings.horizon,
@@ -515,7 +521,7 @@ def evaluate(events: Any, *, train_size: int, settings: Settings | None = None, 
                                     comparisons.get("best_vs_share_dm_p", math.nan))
     return Evaluation(n=n, train_size=train_size, last_observed=last, methods=tuple(methods),
                       scorecard=card, best=best, comparisons=comparisons, verdict=verdict,
-                      coefficients=runs.coefficients, notes=tuple(runs.notes), reliability=reliability,
+                      logit_fit=runs.logit_fit, notes=tuple(runs.notes), reliability=reliability,
                       roc=roc, horizon=settings.horizon, warnings=check.warnings(),
                       value_model=runs.value_model, lowest=lowest)
 

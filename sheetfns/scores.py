@@ -17,9 +17,9 @@ Conventions (one for the module)
 
 This module only re-exports; the work is in :mod:`sheetfns._scoring` (``contingency``: the
 definitions of the categorical scores; ``categorical``, ``probabilistic``, ``significance``;
-``registry``). pandas and scipy are imported only inside the functions that need them
-(``brier_decomposition`` and ``diebold_mariano``), so that importing the scores for a spreadsheet
-function stays light.
+``registry``). pandas is imported only inside ``brier_decomposition`` (for its table;
+``brier_parts`` gives the same numbers as plain arrays) and scipy nowhere, so that importing the
+scores for a spreadsheet function or a refresh stays light.
 """
 from __future__ import annotations
 
@@ -38,6 +38,7 @@ from sheetfns._scoring.probabilistic import (
     PROBABILISTIC_KEYS,
     RocPoints,
     brier_decomposition,
+    brier_parts,
     probabilistic,
     roc_points,
 )
@@ -47,7 +48,7 @@ from sheetfns._scoring.significance import diebold_mariano, mcnemar, two_proport
 __all__ = [
     "CATEGORICAL_KEYS", "Confusion", "LOG_LOSS_EPS", "PROBABILISTIC_KEYS", "RocPoints",
     "SCORE_INFO", "SCORE_KEYS", "ScoreInfo", "UndefinedScoreWarning",
-    "brier_decomposition", "categorical", "confusion", "cost_cutoff", "diebold_mariano",
+    "brier_decomposition", "brier_parts", "categorical", "confusion", "cost_cutoff", "diebold_mariano",
     "expected_cost", "from_counts", "mcnemar", "probabilistic", "roc_points", "two_proportion",
     "wilson", "wilson_intervals",
 ]

@@ -27,6 +27,7 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass
+from functools import cached_property
 from typing import Any
 
 import numpy as np
@@ -55,8 +56,9 @@ class ValueForecast:
 
     ``prob`` P(event), ``mean`` the point forecast of the quantity, ``scale`` the scale of its
     predictive t (s sqrt(1 + x'(X'X)^-1 x)), ``dof`` its degrees of freedom (NaN where there is no
-    forecast), ``coefficients`` the table (term, estimate, std_error, t, p; its ``attrs`` hold
-    ``residual_scale``, ``dof`` and ``nobs``), ``notes``.
+    forecast), ``coefficients`` the table (a pandas DataFrame: term, estimate, std_error, t, p; its
+    ``attrs`` hold ``residual_scale``, ``dof`` and ``nobs``; made from ``fit`` when first asked for,
+    so that a caller who writes the numbers elsewhere never imports pandas), ``notes``.
 
     Beyond the contract: ``applies`` (False where the rule is not a numeric threshold; every array is
     then NaN and the first note says why), ``quantity`` ("value", "change" or "percent change"),
@@ -68,7 +70,6 @@ class ValueForecast:
     mean: np.ndarray
     scale: np.ndarray
     dof: np.ndarray
-    coefficients: Any
     notes: tuple[str, ...] = ()
     applies: bool = True
     quantity: str = ""
@@ -78,6 +79,16 @@ class ValueForecast:
     future_fit: OLSFit | None = None
     terms: tuple[str, ...] = ()
     refits: int = 0
+
+    @cached_property
+    def coefficients(self):
+        """The coefficient table of ``fit`` (an empty table without one)."""
+        if self.fit is not None:
+            return self.fit.table()
+        import pandas as pd  # lazy: pandas adds ~0.3 s to start-up (DEVELOPERS.md, The core)
+
+        return pd.DataFrame({c: pd.Series(dtype=object if c == "term" else float)
+                             for c in COEFFICIENT_COLUMNS})
 
 
 def _criterion(criterion: Any) -> Criterion:
@@ -141,12 +152,8 @@ def _not_applicable(crit: Criterion, min_run: int) -> str | None:
 
 
 def _absent(n: int, why: str) -> ValueForecast:
-    import pandas as pd
-
     nan = np.full(n, np.nan)
-    table = pd.DataFrame({c: pd.Series(dtype=object if c == "term" else float)
-                          for c in COEFFICIENT_COLUMNS})
-    return ValueForecast(nan, nan.copy(), nan.copy(), nan.copy(), table, (f"value model not used: {why}",),
+    return ValueForecast(nan, nan.copy(), nan.copy(), nan.copy(), (f"value model not used: {why}",),
                          applies=False)
 
 
@@ -287,13 +294,8 @@ def forecast(values: Any, criterion: str | Criterion, *, predictors: Mapping[str
     notes = [f"value model: the {what} is forecast by least squares and P(event) = P({event}) under "
              f"its predictive Student t (n - k degrees of freedom, scale s sqrt(1 + x'(X'X)^-1 x))"]
     notes += res.notes
-    if res.table_fit is not None:
-        table = res.table_fit.table()
-        scale = res.table_fit.scale
-    else:
-        table = _absent(0, "").coefficients
-        scale = math.nan
-    return ValueForecast(prob, res.mean, res.scale, res.dof, table, tuple(notes), True, what, event,
+    scale = res.table_fit.scale if res.table_fit is not None else math.nan
+    return ValueForecast(prob, res.mean, res.scale, res.dof, tuple(notes), True, what, event,
                          scale, res.table_fit, res.future_fit, tuple(design.terms), res.refits)
 
 

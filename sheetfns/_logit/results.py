@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import cached_property
 from typing import Any
 
 import numpy as np
@@ -76,18 +77,27 @@ class LogitForecast:
     """Result of :func:`sheetfns.logistic.forecast`: ``prob`` aligned to the target row, the
     coefficient table, notes.
 
-    Beyond the contract: ``fit`` (the :class:`LogitFit` behind ``coefficients``), ``future_fit`` (the
+    ``coefficients`` (a pandas DataFrame) is made from ``table_fit`` when first asked for, so that a
+    caller who writes the numbers elsewhere (the refresh) never imports pandas.
+
+    Beyond the contract: ``table_fit`` (the :class:`LogitFit` behind ``coefficients``; NaN estimates
+    when no fit was made), ``fit`` (the same fit, or None when there was none), ``future_fit`` (the
     fit on all observed rows used for future rows, or None), ``terms``, ``refits`` (number of
     estimations done for the validation / roll-forward rows).
     """
 
     prob: np.ndarray
-    coefficients: Any
+    table_fit: LogitFit
     notes: tuple[str, ...] = ()
     fit: LogitFit | None = None
     future_fit: LogitFit | None = None
     terms: tuple[str, ...] = ()
     refits: int = 0
+
+    @cached_property
+    def coefficients(self):
+        """The coefficient table (DataFrame: term, estimate, std_error, z, p) of ``table_fit``."""
+        return coefficient_table(self.table_fit)
 
 
 def coefficient_table(res: LogitFit):

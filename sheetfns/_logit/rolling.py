@@ -34,7 +34,7 @@ import numpy as np
 from sheetfns._logit import irls as _irls
 from sheetfns._logit.design import Design
 from sheetfns._logit.estimate import TOL, fit_complete, min_rows
-from sheetfns._logit.results import LogitFit, LogitForecast, coefficient_table
+from sheetfns._logit.results import LogitFit, LogitForecast
 from sheetfns.errors import InputError
 
 #: Error allowed in a fitted linear predictor of a warm refit (see the module docstring); the
@@ -288,9 +288,9 @@ def run(y: np.ndarray, design: Design, *, last: int, horizon: int, train_size: i
         notes.append(f"future {_rows(last + horizon + 1, n - 1, 'has/have')} no forecast: the lagged "
                      f"inputs end {horizon} row(s) past the last observation")
     notes += _roller_notes(roller, fit_table)
-    table = coefficient_table(fit_table) if fit_table is not None else coefficient_table(
-        LogitFit(np.full(k, np.nan), np.full(k, np.nan), np.nan, False, (), tuple(terms)))
-    return LogitForecast(prob, table, tuple(notes), fit_table, future_fit, tuple(terms), refits)
+    shown = fit_table if fit_table is not None else LogitFit(
+        np.full(k, np.nan), np.full(k, np.nan), np.nan, False, (), tuple(terms))
+    return LogitForecast(prob, shown, tuple(notes), fit_table, future_fit, tuple(terms), refits)
 
 
 def _roller_notes(roller: _Roller, fit_table: LogitFit | None) -> list[str]:

@@ -291,7 +291,7 @@ def EVENT_BRIER(actual: Cells, probability: Cells) -> Spill:
     a = c.event_column(actual, "actual")
     p = c.prob_column(probability, "probability")
     same_length(actual=a, probability=p)
-    d = scores.brier_decomposition(a, p)
+    d = scores.brier_parts(a, p)
     return c.to_table(["measure", "value"],
                       [[k, d[k]] for k in ("brier", "reliability", "resolution", "uncertainty", "n")])
 

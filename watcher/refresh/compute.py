@@ -54,7 +54,7 @@ class JobOutcome:
     data: Any = None
     events: Any = None
     values: Any = None
-    profile: Any = None
+    profile: Any = None  # sheetfns.profile.Rates of the event by period of year (dated jobs)
     trend: Any = None
     notes: tuple[str, ...] = ()  # what the forecast sheet's notes say of the data (the warnings first)
     warnings: tuple[str, ...] = ()  # the notes that warn (cells read as missing, gaps, holidays, ...)
@@ -115,9 +115,9 @@ def compute_job(job: Job, data: Any) -> JobOutcome:
                   criterion=job.criterion, raw_values=raw, min_run=job.min_run)
     table = trend = None
     if data.dates is not None:
-        table = profile.rate_table(data.dates, events, by=profile_period(job.frequency))
+        table = profile.rates(data.dates, events, by=profile_period(job.frequency))
         try:
-            trend = profile.seasonal_trend(table, degree=2)
+            trend = table.trend(degree=2)[0]
         except ValueError:      # too few periods for a trend: the table goes without one
             trend = None
     return JobOutcome(job=job, name=job.name, sheet=job.output_sheet, profile_sheet=job.profile_sheet,

@@ -216,34 +216,33 @@ def _significance(blocks: list[Any], r: int, ev: Evaluation) -> int:
 
 
 def _logistic_coefficients(blocks: list[Any], r: int, ev: Evaluation) -> int:
-    coef = ev.coefficients
-    if coef is None or len(coef) == 0:
+    fit = ev.logit_fit
+    if fit is None or len(fit.terms) == 0:
         return r
     blocks.append(Cells(r, 0, (((f"logistic coefficients (fit on the {ev.train_size} training rows)",
                                  "bold"),),)))
-    return _coefficient_table(blocks, r + 1, coef, "z")
+    return _coefficient_table(blocks, r + 1, fit.terms, (fit.params, fit.bse, fit.z, fit.pvalues), "z")
 
 
 def _value_coefficients(blocks: list[Any], r: int, ev: Evaluation) -> int:
     vm = ev.value_model
-    if vm is None or vm.coefficients is None or len(vm.coefficients) == 0:
+    fit = None if vm is None else vm.fit
+    if fit is None or len(fit.terms) == 0:
         return r
-    coef = vm.coefficients
-    nobs = coef.attrs.get("nobs")
-    fit = f"least squares on the first {nobs} usable rows" if nobs else "least squares"
-    blocks.append(Cells(r, 0, (((f"value model coefficients ({fit}; the {vm.quantity} is forecast, "
+    how = f"least squares on the first {fit.nobs} usable rows" if fit.nobs else "least squares"
+    blocks.append(Cells(r, 0, (((f"value model coefficients ({how}; the {vm.quantity} is forecast, "
                                  f"the event is {vm.event})", "bold"),),)))
-    r = _coefficient_table(blocks, r + 1, coef, "t") - 1
+    r = _coefficient_table(blocks, r + 1, fit.terms, (fit.params, fit.bse, fit.tvalues, fit.pvalues), "t") - 1
     rows = ((("residual scale", "bold"), (number(vm.residual_scale), "dec3"),
-             (f"(s, on {number(coef.attrs.get('dof')) or 0:g} degrees of freedom: how far the {vm.quantity} "
+             (f"(s, on {number(fit.dof) or 0:g} degrees of freedom: how far the {vm.quantity} "
               f"strays from its forecast)", "general")),)
     blocks.append(Cells(r, 0, rows))
     return r + 2
 
 
-def _coefficient_table(blocks: list[Any], r: int, coef: Any, stat: str) -> int:
-    terms = tuple(str(t) for t in coef["term"])
-    cols = [Column(terms)] + [Column(np.asarray(coef[k], dtype=float), "dec3")
-                              for k in ("estimate", "std_error", stat, "p")]
+def _coefficient_table(blocks: list[Any], r: int, terms: Any, numbers: tuple[Any, ...], stat: str) -> int:
+    """Term, estimate, std. error, the test statistic ``stat`` and its p-value, a row per term."""
+    cols = [Column(tuple(str(t) for t in terms))] + [Column(np.asarray(x, dtype=float), "dec3")
+                                                     for x in numbers]
     blocks.append(Table(r, 0, ("term", "estimate", "std. error", stat, "p"), tuple(cols)))
     return r + len(terms) + 2

@@ -80,25 +80,24 @@ def profile_sheet(ctx: SheetContext, table: Any, trend: Any, ev: Evaluation | No
     """The profile sheet: rate table + line chart, reliability table + diagram, ROC points + curve."""
     blocks: list[Any] = [Cells(0, 0, (((f"tocsin profile: {ctx.job}", "title"),),
                                       ((f"share of periods with the event ({ctx.event_text}) by "
-                                        f"{table.index.name} and year", "general"),),
+                                        f"{table.by} and year", "general"),),
                                       ((CAUTION, "italic"),)))]
     charts: list[ChartSpec] = []
-    years = [c for c in table.columns if isinstance(c, (int, np.integer))]
-    by = str(table.index.name)
-    labels = tuple(_period_label(by, p) for p in table.index)
+    years = table.years
+    by = table.by
+    labels = tuple(_period_label(by, p) for p in table.labels)
     cols = [Column(labels)]
     header = [by]
-    for y in years:
+    for j, y in enumerate(years):
         header.append(str(y))
-        cols.append(Column(table[y].to_numpy(dtype=float), "percent"))
+        cols.append(Column(np.asarray(table.share[:, j], dtype=float), "percent"))
     header.append("all years")
-    cols.append(Column(table["all years"].to_numpy(dtype=float), "percent"))
+    cols.append(Column(np.asarray(table.pooled, dtype=float), "percent"))
     if trend is not None:  # a polynomial fit may leave [0, 1]; a share shown below 0% misleads
         header.append("trend")
         cols.append(Column(np.clip(np.asarray(trend, dtype=float), 0.0, 1.0), "percent"))
     header += ["events", "rows"]
-    cols += [Column(table["events"].to_numpy(dtype=float), "integer"),
-             Column(table["rows"].to_numpy(dtype=float), "integer")]
+    cols += [Column(table.events.astype(float), "integer"), Column(table.rows.astype(float), "integer")]
     top = 4
     rate = Table(top, 0, tuple(header), tuple(cols))
     blocks.append(rate)
@@ -131,29 +130,31 @@ _DIAGONAL = np.array([0.0, 1.0])
 
 
 def _reliability(blocks: list[Any], charts: list[ChartSpec], r: int, ev: Evaluation) -> int:
-    tab = ev.reliability["table"]
-    tab = tab[tab["count"] > 0]
+    bins = ev.reliability["bins"]
+    used = np.asarray(bins["count"]) > 0
+    tab = {k: np.asarray(v, dtype=float)[used] for k, v in bins.items()}
+    shown = int(used.sum())
     title = "reliability of the logistic probabilities (validation period)"
     blocks.append(Cells(r, 0, (((title, "bold"),),)))
     t = Table(r + 1, 0, ("bin from", "bin to", "mean forecast", "observed frequency", "count", "diagonal"),
-              (Column(tab["lower"].to_numpy(dtype=float), "percent"),
-               Column(tab["upper"].to_numpy(dtype=float), "percent"),
-               Column(tab["mean_forecast"].to_numpy(dtype=float), "percent"),
-               Column(tab["observed_frequency"].to_numpy(dtype=float), "percent"),
-               Column(tab["count"].to_numpy(dtype=float), "integer"),
-               Column(np.concatenate([_DIAGONAL, np.full(max(len(tab) - 2, 0), np.nan)])[:max(len(tab), 2)]
-                      if len(tab) >= 2 else np.full(len(tab), np.nan), "percent")))
+              (Column(tab["lower"], "percent"),
+               Column(tab["upper"], "percent"),
+               Column(tab["mean_forecast"], "percent"),
+               Column(tab["observed_frequency"], "percent"),
+               Column(tab["count"], "integer"),
+               Column(np.concatenate([_DIAGONAL, np.full(max(shown - 2, 0), np.nan)])[:max(shown, 2)]
+                      if shown >= 2 else np.full(shown, np.nan), "percent")))
     blocks.append(t)
-    if len(tab) >= 1:
+    if shown >= 1:
         series: list[Series] = [Series("logistic", t.ref(3), x=t.ref(2), style="line+marker")]
-        if len(tab) >= 2:
+        if shown >= 2:
             diag = Ref(t.first_data_row, 5, t.first_data_row + 1)
             series.append(Series("perfect reliability", diag, x=diag, style="reference"))
         charts.append(ChartSpec("scatter", "Reliability diagram", (r, 7), tuple(series),
                                 x_axis_title="forecast probability", y_axis_title="observed frequency",
                                 x_range=(0.0, 1.0), y_range=(0.0, 1.0), x_fmt="percent", y_fmt="percent",
                                 size=(18, 9)))
-    return r + max(len(tab) + 3, 20)
+    return r + max(shown + 3, 20)
 
 
 def _roc(blocks: list[Any], charts: list[ChartSpec], r: int, ev: Evaluation) -> int:
