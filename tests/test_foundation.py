@@ -45,3 +45,14 @@ def test_cli_help_lists_commands():
 def test_cli_version(argv):
     out = subprocess.run([sys.executable, "-m", "watcher.cli", *argv], capture_output=True, text=True)
     assert out.returncode == 0 and out.stdout.startswith("tocsin ")
+
+
+def test_version_has_one_home():
+    """pyproject.toml takes the version from watcher/refresh/texts.py (read at build time), so the
+    installed distribution's metadata and the version the command prints are the same."""
+    from importlib import metadata
+
+    from watcher.refresh.texts import VERSION
+    assert metadata.version("tocsin") == VERSION
+    out = subprocess.run([sys.executable, "-m", "watcher.cli", "--version"], capture_output=True, text=True)
+    assert out.stdout.split()[1] == VERSION

@@ -23,8 +23,6 @@ from __future__ import annotations
 import base64
 import os
 import signal
-import smtplib
-import ssl
 import subprocess
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
@@ -33,6 +31,9 @@ from typing import TYPE_CHECKING
 from watcher.alert.state import CHANNELS
 
 if TYPE_CHECKING:  # the alert's text needs the sheet layout (numpy, the scorecard); delivery does not
+    import smtplib
+    import ssl
+
     from watcher.alert.message import Alert
 
 __all__ = ["SECRET_VARIABLES", "Delivery", "Dispatcher", "MailSettings", "TIME_LIMIT"]
@@ -63,7 +64,7 @@ class MailSettings:
     port: int = 25
     user: str | None = None
     password: str | None = field(default=None, repr=False)
-    tls: Callable[[], ssl.SSLContext] = field(default=ssl.create_default_context, repr=False)
+    tls: Callable[[], ssl.SSLContext] | None = field(default=None, repr=False)  # None: the system's trust
 
     @property
     def where(self) -> str:
@@ -170,6 +171,8 @@ class Dispatcher:
         head = (f"alert mail ({alert.state} {_quote(alert.job)}) to {', '.join(mail.recipients)} "
                 f"via {mail.where}")
         msg = alert.mail(sender=mail.sender, recipients=mail.recipients)
+        import smtplib  # lazy, as ssl: a refresh that sends no mail does not load them (~15 ms)
+        import ssl
         try:
             with smtplib.SMTP(mail.host, mail.port, timeout=self.timeout) as smtp:
                 smtp.ehlo()
@@ -177,7 +180,7 @@ class Dispatcher:
                     if not smtp.has_extn("starttls"):
                         return False, (f"{head}: the server does not offer STARTTLS, so the login was not "
                                        "sent and the mail was not sent")
-                    smtp.starttls(context=mail.tls())
+                    smtp.starttls(context=mail.tls() if mail.tls else ssl.create_default_context())
                     smtp.ehlo()
                     _login(smtp, mail.user, mail.password or "")
                 refused = smtp.send_message(msg, from_addr=mail.sender, to_addrs=list(mail.recipients))
@@ -218,6 +221,8 @@ class Dispatcher:
 def _login(smtp: smtplib.SMTP, user: str, password: str) -> None:
     """Log in. smtplib sends credentials as ASCII only; a user name or password beyond ASCII goes as
     AUTH PLAIN in UTF-8 (RFC 4616, section 2), which is the one mechanism that defines it."""
+    import smtplib
+
     if (user + password).isascii():
         smtp.login(user, password)
         return

@@ -24,13 +24,14 @@ import textwrap
 import unicodedata
 from collections.abc import Sequence
 from dataclasses import asdict, dataclass
-from email.message import EmailMessage
-from email.utils import formatdate, make_msgid
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from sheetfns.scorecard import METHOD_LABELS
 from watcher.alert.state import CLEARED, RAISED, Reading
 from watcher.refresh.texts import CAUTION
+
+if TYPE_CHECKING:
+    from email.message import EmailMessage
 
 __all__ = ["Alert", "build_alert"]
 
@@ -101,6 +102,9 @@ class Alert:
 
     def mail(self, *, sender: str, recipients: Sequence[str]) -> EmailMessage:
         """The alert as a plain-text mail from ``sender`` to ``recipients`` (the operator's addresses)."""
+        from email.message import EmailMessage  # lazy: only a mail needs the email package
+        from email.utils import formatdate, make_msgid
+
         msg = EmailMessage()
         msg["Subject"] = self.subject
         msg["From"] = sender
