@@ -252,6 +252,8 @@ class _ColumnWriter:
         values = col.values
         self.kind = "object"
         self.bad_dates = None
+        self.size = len(values)
+        self._windows: dict[str, tuple[int, int, list]] = {}  # suffix -> (start, stop, slots)
         if isinstance(values, np.ndarray):
             if values.dtype.kind == "M":
                 self.serials, self.bad_dates = date_serials(values, styles.date1904)
@@ -262,7 +264,19 @@ class _ColumnWriter:
                 self.kind = "float"
 
     def slots(self, start: int, stop: int, suffix: str, rows: list[str]) -> list:
-        """Rows ``start..stop-1`` of the column as slots (see :func:`_numeric_slots`)."""
+        """Rows ``start..stop-1`` of the column as slots (see :func:`_numeric_slots`).
+
+        The slots are made for a window of up to :data:`CHUNK_ROWS` rows and sliced from it, so a
+        table cut into many short row segments (the panel beside it starts and ends blocks) costs one
+        pass over its numbers, not one per segment."""
+        cached = self._windows.get(suffix)
+        if cached is None or not (cached[0] <= start and stop <= cached[1]):
+            end = min(self.size, max(stop, start + CHUNK_ROWS))
+            cached = self._windows[suffix] = (start, end, self._slots(start, end, suffix, [""] * (end - start))[1:])
+        i, j = start - cached[0], stop - cached[0]
+        return [rows, *(s if isinstance(s, str) else s[i:j] for s in cached[2])]
+
+    def _slots(self, start: int, stop: int, suffix: str, rows: list[str]) -> list:
         col = self.col
         if self.kind == "object":
             out = [rows, self._object_pieces(col.values[start:stop], suffix)]
