@@ -2,8 +2,8 @@
 
 :func:`rate_table` counts events per period of the year (month, ISO week, weekday or quarter) and per
 year (:func:`rates` gives the same numbers as arrays, without pandas, for the refresh);
-:func:`seasonal_trend` (:meth:`Rates.trend`) fits a low-degree polynomial across the periods of the year to the
-pooled shares, so a reader sees the seasonal shape without the year-to-year noise.
+:func:`seasonal_trend` (:meth:`Rates.trend`) fits a low-degree polynomial across the periods of the
+year to the pooled shares, so a reader sees the seasonal shape without the year-to-year noise.
 
 Blank events (missing values and the trailing future rows) are left out of both the events and the
 rows counted; a period with no observed row in a year is NaN, never 0.

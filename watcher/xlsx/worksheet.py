@@ -272,7 +272,8 @@ class _ColumnWriter:
         cached = self._windows.get(suffix)
         if cached is None or not (cached[0] <= start and stop <= cached[1]):
             end = min(self.size, max(stop, start + CHUNK_ROWS))
-            cached = self._windows[suffix] = (start, end, self._slots(start, end, suffix, [""] * (end - start))[1:])
+            made = self._slots(start, end, suffix, [""] * (end - start))[1:]
+            cached = self._windows[suffix] = (start, end, made)
         i, j = start - cached[0], stop - cached[0]
         return [rows, *(s if isinstance(s, str) else s[i:j] for s in cached[2])]
 
