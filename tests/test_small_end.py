@@ -24,3 +24,20 @@ def test_refresh_command_imports_no_scipy_statsmodels_pandas_or_watcher(tmp_path
                          cwd=ROOT)
     assert out.returncode == 0, out.stderr
     assert out.stdout.strip().splitlines()[-1] == "0 []"
+
+
+def test_the_command_ends_at_once_with_its_output_flushed_and_its_exit_code(tmp_path):
+    """The entry point skips the interpreter's teardown (watcher.cli.command.run): what the command
+    printed into a pipe still arrives whole, and the exit code is the command's."""
+    import json
+
+    book = tmp_path / "ferry.xlsx"
+    shutil.copyfile(ROOT / "sample_workbooks" / "island_ferry.xlsx", book)
+    out = subprocess.run([sys.executable, "-m", "watcher.cli", "refresh", "--json", str(book)],
+                         capture_output=True, text=True, timeout=300, cwd=ROOT)
+    assert out.returncode == 0, out.stderr
+    report = json.loads(out.stdout)
+    assert [r["status"] for r in report] == ["refreshed"]
+    gone = subprocess.run([sys.executable, "-m", "watcher.cli", "refresh", str(tmp_path / "none.xlsx")],
+                          capture_output=True, text=True, timeout=300, cwd=ROOT)
+    assert gone.returncode == 1 and "none.xlsx" in gone.stderr
