@@ -31,7 +31,8 @@ from typing import Any
 import numpy as np
 
 from sheetfns._logit import design as _design
-from sheetfns._logit.estimate import RIDGE, TOL, fit_complete, min_rows
+from sheetfns._logit.estimate import RIDGE, TOL, fit_complete
+from sheetfns._logit.plan import min_rows
 from sheetfns._logit.results import LogitFit, LogitForecast, as_matrix, coefficient_table
 from sheetfns._logit.rolling import run
 from sheetfns.checks import as_events, as_int, last_observed

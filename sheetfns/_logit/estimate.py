@@ -1,9 +1,8 @@
 """One estimation of the logit on complete rows: the checks of :func:`sheetfns.logistic.fit` (a
-constant target, collinear terms, separation) around the Newton solver of :mod:`sheetfns._logit.irls`,
-and the sample-size rule of the roll-forward fits.
+constant target, collinear terms, separation) around the Newton solver of :mod:`sheetfns._logit.irls`.
 
-Internal to :mod:`sheetfns.logistic` (which re-exports ``RIDGE`` and ``min_rows``) and used by the
-refit schemes of :mod:`sheetfns._logit.rolling`.
+Internal to :mod:`sheetfns.logistic` (which re-exports ``RIDGE``) and used by the refit schemes of
+:mod:`sheetfns._logit.rolling`.
 """
 from __future__ import annotations
 
@@ -23,16 +22,6 @@ RIDGE = 1e-2
 #: Convergence of a fit: the largest change of a fitted linear predictor in the last Newton step. The
 #: error left after that step is ~0.1 tol**2 and a free correction step squares it (see _irls).
 TOL = 1e-6
-
-
-def min_rows(n_terms: int) -> int:
-    """Smallest estimation sample for a roll-forward fit: 10 rows per term, at least 30.
-
-    Common practice (the "ten events per variable" rule of thumb; Peduzzi et al., 1996, *J. Clin.
-    Epidemiol.* 49(12), 1373-1379, counts events; tocsin counts rows and lets the notes report
-    separation when events are too few).
-    """
-    return max(30, 10 * n_terms)
 
 
 def fit_complete(x: np.ndarray, y: np.ndarray, terms: Sequence[str], *, add_constant: bool = True,

@@ -33,9 +33,10 @@ import numpy as np
 
 from sheetfns._logit import irls as _irls
 from sheetfns._logit.design import Design
-from sheetfns._logit.estimate import TOL, fit_complete, min_rows
+from sheetfns._logit.estimate import TOL, fit_complete
+from sheetfns._logit.plan import plan
+from sheetfns._logit.plan import rows_text as _rows
 from sheetfns._logit.results import LogitFit, LogitForecast
-from sheetfns.errors import InputError
 
 #: Error allowed in a fitted linear predictor of a warm refit (see the module docstring); the
 #: probabilities are then within 1e-9 of the exact maximum-likelihood ones (measured: 4.5e-10 on
@@ -77,15 +78,6 @@ class _Anchor:
         if not np.all(np.isfinite(d)):
             return None
         return d, float(np.abs(d) @ colmax)
-
-
-def _rows(a: int, b: int, verb: str = "") -> str:
-    """1-based inclusive row range for notes, with ``verb`` ("has"/"have", "carries"/"carry") agreeing."""
-    text = f"row {a + 1}" if a == b else f"rows {a + 1}-{b + 1}"
-    if verb:
-        singular, plural = verb.split("/")
-        text += " " + (singular if a == b else plural)
-    return text
 
 
 class _Roller:
@@ -209,56 +201,16 @@ def run(y: np.ndarray, design: Design, *, last: int, horizon: int, train_size: i
         xe, ye = x[usable], y[usable]
     roller = _Roller(xe, ye, terms)
     prob = np.full(n, np.nan)
-
-    def window(origin: np.ndarray | int):
-        return np.searchsorted(usable, origin, side="right")
-
-    targets = np.arange(0, last + 1)
-    if train_size is None:
-        every = max(every, 1)
-        m_need = min_rows(k)
-        ok = np.flatnonzero(window(targets - horizon) >= m_need)
-        t0 = int(ok[0]) if ok.size else last + 1
-        if t0 > 0:
-            notes.append(f"{_rows(0, min(t0, last + 1) - 1, 'has/have')} no forecast: a roll-forward "
-                         f"fit needs at least {m_need} usable rows (10 per term, at least 30) observed "
-                         f"by its origin")
-        scheme = "roll-forward: refitted at every origin" if every == 1 else \
-            f"roll-forward: refitted every {every} origins"
-        notes.append(f"{scheme} on all usable rows observed by the origin (expanding window)")
-    else:
-        t0 = train_size
-        m0 = int(window(t0 - horizon))
-        if m0 < k + 1:
-            raise InputError(f"`train_size` leaves {m0} usable rows for {k} terms at the first "
-                             f"validation origin; need at least {k + 1}; got train_size={train_size}",
-                             argument="train_size", value=train_size)
-        fixed_rows = _rows(0, min(t0 - horizon, last))
-        if every == 0:
-            notes.append(f"fixed: coefficients estimated once on {fixed_rows} (the rows observed at the "
-                         f"first validation origin) and used for every validation row")
-        else:
-            how = "every validation origin" if every == 1 else f"every {every} validation origins"
-            notes.append(f"roll: refitted at {how} on all usable rows observed by the origin, the first "
-                         f"fit on {fixed_rows}")
-        if horizon > 1:
-            notes.append(f"horizon {horizon}: the last {horizon - 1} training row(s) are not yet "
-                         f"observed at the first validation origin, so the first fit leaves them out")
-        notes.append(f"training {_rows(0, min(t0 - 1, last), 'carries/carry')} no forecast: the model is "
-                     f"estimated on them, "
-                     f"and an in-sample fit would use observations after the origin")
-        if m0 < min_rows(k):
-            notes.append(f"only {m0} usable rows for {k} terms in the first fit (fewer than "
-                         f"{min_rows(k)}): the estimates are unstable")
-    targets = targets[t0:]
+    scheme = plan(usable, k, last=last, horizon=horizon, train_size=train_size, every=every)
+    notes += scheme.notes
+    targets = scheme.targets
     fit_table: LogitFit | None = None
-    if train_size is not None:
-        fit_table = roller.get(int(window(t0 - horizon)), need_cov=(every == 0))
+    if scheme.fixed_window is not None:
+        fit_table = roller.get(scheme.fixed_window, need_cov=(scheme.every == 0))
     refits = 0
     if targets.size:
-        anchors = t0 + ((targets - t0) // every) * every if every else np.full(targets.size, t0)
-        uniq, group = np.unique(anchors, return_inverse=True)
-        fits = [roller.get(int(window(a - horizon))) for a in uniq]
+        uniq, group = np.unique(scheme.windows, return_inverse=True)
+        fits = [roller.get(int(m)) for m in uniq]
         refits = len({f.nobs for f in fits})
         prob[targets] = _predict_groups(x, targets, group, fits)
         missing = int(np.sum(~complete[targets]))

@@ -1,9 +1,9 @@
 """Estimation schemes of the value model: fixed origin, roll-forward, every N origins, future rows.
 
 Internal to :mod:`sheetfns.valuemodel`; the schemes, the estimation samples and the rows that get a
-forecast are those of the logistic model (:func:`sheetfns.logistic.forecast`, Notes), with least
-squares in place of the logit. Row s is usable when its quantity is observed and its design row
-complete; the fit "at origin o" uses every usable row s <= o, a prefix of the usable rows, so the
+forecast are those of the logistic model (:func:`sheetfns.logistic.forecast`, Notes; one plan for
+both, :mod:`sheetfns._logit.plan`), with least squares in place of the logit. Row s is usable
+when its quantity is observed and its design row complete; the fit "at origin o" uses every usable row s <= o, a prefix of the usable rows, so the
 cross products of each window are those of the last window plus the rows that entered
 (:mod:`sheetfns._ols.normal`), and every window is solved once however many rows share it.
 """
@@ -14,9 +14,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from sheetfns._logit.design import Design
+from sheetfns._logit.plan import plan, rows_text
 from sheetfns._ols.normal import Accumulator, OLSFit, chunks, predict, to_fit
-from sheetfns.errors import InputError
-from sheetfns.logistic import min_rows
 
 
 @dataclass
@@ -33,15 +32,6 @@ class Run:
     refits: int = 0
 
 
-def rows_text(a: int, b: int, verb: str = "") -> str:
-    """1-based inclusive row range for notes, with ``verb`` ("has/have") agreeing."""
-    text = f"row {a + 1}" if a == b else f"rows {a + 1}-{b + 1}"
-    if verb:
-        singular, plural = verb.split("/")
-        text += " " + (singular if a == b else plural)
-    return text
-
-
 def run(q: np.ndarray, design: Design, *, last: int, horizon: int, train_size: int | None,
         every: int) -> Run:
     """Carry out the estimation scheme (see :func:`sheetfns.valuemodel.forecast`)."""
@@ -53,52 +43,9 @@ def run(q: np.ndarray, design: Design, *, last: int, horizon: int, train_size: i
     usable = np.flatnonzero(complete & ~np.isnan(q))
     xe, ye = x[usable], q[usable]
 
-    def window(origin):
-        return np.searchsorted(usable, origin, side="right")
-
-    targets = np.arange(0, last + 1)
-    fixed_window = None
-    if train_size is None:
-        every = max(every, 1)
-        m_need = min_rows(k)
-        ok = np.flatnonzero(window(targets - horizon) >= m_need)
-        t0 = int(ok[0]) if ok.size else last + 1
-        if t0 > 0:
-            notes.append(f"{rows_text(0, min(t0, last + 1) - 1, 'has/have')} no forecast: a roll-forward "
-                         f"fit needs at least {m_need} usable rows (10 per term, at least 30) observed "
-                         f"by its origin")
-        scheme = "roll-forward: refitted at every origin" if every == 1 else \
-            f"roll-forward: refitted every {every} origins"
-        notes.append(f"{scheme} on all usable rows observed by the origin (expanding window)")
-    else:
-        t0 = train_size
-        fixed_window = int(window(t0 - horizon))
-        if fixed_window < k + 1:
-            raise InputError(f"`train_size` leaves {fixed_window} usable rows for {k} terms at the first "
-                             f"validation origin; need at least {k + 1}; got train_size={train_size}")
-        fixed_rows = rows_text(0, min(t0 - horizon, last))
-        if every == 0:
-            notes.append(f"fixed: coefficients estimated once on {fixed_rows} (the rows observed at the "
-                         f"first validation origin) and used for every validation row")
-        else:
-            how = "every validation origin" if every == 1 else f"every {every} validation origins"
-            notes.append(f"roll: refitted at {how} on all usable rows observed by the origin, the first "
-                         f"fit on {fixed_rows}")
-        if horizon > 1:
-            notes.append(f"horizon {horizon}: the last {horizon - 1} training row(s) are not yet "
-                         f"observed at the first validation origin, so the first fit leaves them out")
-        notes.append(f"training {rows_text(0, min(t0 - 1, last), 'carries/carry')} no forecast: the "
-                     f"model is estimated on them, and an in-sample fit would use observations after "
-                     f"the origin")
-        if fixed_window < min_rows(k):
-            notes.append(f"only {fixed_window} usable rows for {k} terms in the first fit (fewer than "
-                         f"{min_rows(k)}): the estimates are unstable")
-    targets = targets[t0:]
-    if targets.size:
-        anchors = t0 + ((targets - t0) // every) * every if every else np.full(targets.size, t0)
-        target_window = window(anchors - horizon)
-    else:
-        target_window = np.empty(0, dtype=np.intp)
+    scheme = plan(usable, k, last=last, horizon=horizon, train_size=train_size, every=every)
+    notes += scheme.notes
+    targets, target_window, fixed_window = scheme.targets, scheme.windows, scheme.fixed_window
     fut = np.arange(last + 1, min(last + horizon, n - 1) + 1)
     if fut.size and usable.size <= k:
         notes.append(f"future {rows_text(int(fut[0]), int(fut[-1]), 'has/have')} no forecast: "
