@@ -1,11 +1,12 @@
 """Estimation schemes of the value model: fixed origin, roll-forward, every N origins, future rows.
 
 Internal to :mod:`sheetfns.valuemodel`; the schemes, the estimation samples and the rows that get a
-forecast are those of the logistic model (:func:`sheetfns.logistic.forecast`, Notes; one plan for
-both, :mod:`sheetfns._logit.plan`), with least squares in place of the logit. Row s is usable
-when its quantity is observed and its design row complete; the fit "at origin o" uses every usable row s <= o, a prefix of the usable rows, so the
-cross products of each window are those of the last window plus the rows that entered
-(:mod:`sheetfns._ols.normal`), and every window is solved once however many rows share it.
+forecast are those of the logistic model (:func:`sheetfns.logistic.forecast`, Notes; one plan for both,
+:mod:`sheetfns._logit.plan`), with least squares in place of the logit. Row s is usable when its
+quantity is observed and its design row complete; the fit "at origin o" uses every usable row s <= o, a
+prefix of the usable rows, so the cross products of each window are those of the last window plus the
+rows that entered (:mod:`sheetfns._ols.normal`), and every window is solved once however many rows share
+it.
 """
 from __future__ import annotations
 
