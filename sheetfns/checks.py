@@ -132,6 +132,28 @@ def as_nonnegative(value: Any, name: str, *, what: str = "a number") -> float:
     return x
 
 
+def as_cycle(cycle: Any) -> float | None:
+    """The Fourier period of the models' seasonal terms: None stays None, else a finite number of
+    periods > 0, e.g. "`cycle` must be a positive number of periods; got 0"."""
+    if cycle is None:
+        return None
+    message = f"`cycle` must be a positive number of periods; got {cycle!r}"
+    try:
+        x = float(cycle)
+    except (TypeError, ValueError) as exc:
+        raise InputError(message, argument="cycle", value=cycle) from exc
+    if not (np.isfinite(x) and x > 0.0):
+        raise InputError(message, argument="cycle", value=cycle)
+    return x
+
+
+def weekday_needs_dates(weekday: Any, dates: Any) -> None:
+    """The weekday terms are made from the dates: asking for them without dates is an error."""
+    if weekday and dates is None:
+        raise InputError("`weekday` needs `dates`; got weekday=True with dates=None", argument="dates",
+                         value=dates)
+
+
 def last_observed(arr: np.ndarray) -> int:
     """Index of the last non-NaN value (-1 when all are NaN). Rows after it are future periods."""
     obs = np.flatnonzero(~np.isnan(arr))

@@ -24,7 +24,6 @@ References
 """
 from __future__ import annotations
 
-import math
 from collections.abc import Mapping, Sequence
 from typing import Any
 
@@ -35,7 +34,7 @@ from sheetfns._logit.estimate import RIDGE, TOL, fit_complete
 from sheetfns._logit.plan import min_rows
 from sheetfns._logit.results import LogitFit, LogitForecast, as_matrix, coefficient_table
 from sheetfns._logit.rolling import run
-from sheetfns.checks import as_events, as_int, last_observed
+from sheetfns.checks import as_cycle, as_events, as_int, last_observed, weekday_needs_dates
 from sheetfns.errors import InputError
 
 __all__ = ["LogitFit", "LogitForecast", "fit", "forecast", "coefficient_table", "RIDGE", "min_rows"]
@@ -227,19 +226,8 @@ def forecast(y: Any, *, values: Any = None, predictors: Mapping[str, Any] | None
         raise InputError(f"`horizon` is longer than the data: with {last + 1} rows up to the last "
                          f"observation and lags={lags} it can be at most {max(longest, 0)}; "
                          f"got {horizon}", argument="horizon", value=horizon)
-    if cycle is not None:
-        try:
-            cyc = float(cycle)
-        except (TypeError, ValueError) as exc:
-            raise InputError(f"`cycle` must be a positive number of periods; got {cycle!r}", argument="cycle",
-                             value=cycle) from exc
-        if not (math.isfinite(cyc) and cyc > 0.0):
-            raise InputError(f"`cycle` must be a positive number of periods; got {cycle!r}", argument="cycle",
-                             value=cycle)
-        cycle = cyc
-    if weekday and dates is None:
-        raise InputError("`weekday` needs `dates`; got weekday=True with dates=None", argument="dates",
-                         value=dates)
+    cycle = as_cycle(cycle)
+    weekday_needs_dates(weekday, dates)
     every = parse_refit(refit)
     if train_size is not None:
         train_size = as_int(train_size, "train_size", minimum=1, maximum=n)

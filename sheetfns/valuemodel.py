@@ -36,7 +36,7 @@ from sheetfns._logit import design as _design
 from sheetfns._ols import rolling as _rolling
 from sheetfns._ols.normal import OLSFit
 from sheetfns._ols.tdist import t_cdf
-from sheetfns.checks import as_int, as_series, last_observed
+from sheetfns.checks import as_cycle, as_int, as_series, last_observed, weekday_needs_dates
 from sheetfns.errors import InputError
 from sheetfns.events import Criterion, approx_equal, change, parse_criterion
 from sheetfns.events import _coerce as _read_column  # the reading of a column events.flag uses
@@ -99,7 +99,7 @@ def _numeric(values: Any) -> np.ndarray:
     """The column as numbers, read as :func:`sheetfns.events.flag` reads it (text cells missing)."""
     x, _text = _read_column(values)
     if x.size == 0:
-        raise InputError("`values` must not be empty; got 0 rows")
+        raise InputError("`values` must not be empty; got 0 rows", argument="values", value=values)
     return x
 
 
@@ -123,7 +123,8 @@ def quantity(values: Any, criterion: str | Criterion) -> tuple[np.ndarray, str]:
     """
     crit = _criterion(criterion)
     if crit.kind == "text":
-        raise InputError(f"criterion {crit.text!r} compares text: it has no number to forecast")
+        raise InputError(f"criterion {crit.text!r} compares text: it has no number to forecast",
+                         argument="criterion", value=crit.text)
     x = _numeric(values)
     if crit.kind == "compare":
         return x, "value"
@@ -163,16 +164,17 @@ def _check_lengths(n: int, predictors: Any, known_ahead: Any, dates: Any) -> Non
         if mapping is None:
             continue
         if not isinstance(mapping, Mapping):
-            raise InputError(f"`{arg}` must be a mapping of name -> 1-D array; got {type(mapping).__name__}")
+            raise InputError(f"`{arg}` must be a mapping of name -> 1-D array; got {type(mapping).__name__}",
+                             argument=arg, value=mapping)
         for name, col in mapping.items():
             label = f"{arg}[{name!r}]"
             size = as_series(col, label).size
             if size != n:
                 raise InputError(f"`{label}` must have one value per row of `values`; got {size} values "
-                                 f"for {n} rows")
+                                 f"for {n} rows", argument=label, value=col)
     if dates is not None and not isinstance(dates, str) and hasattr(dates, "__len__") and len(dates) != n:
         raise InputError(f"`dates` must have one date per row of `values`; got {len(dates)} dates for "
-                         f"{n} rows")
+                         f"{n} rows", argument="dates", value=dates)
 
 
 def forecast(values: Any, criterion: str | Criterion, *, predictors: Mapping[str, Any] | None = None,
@@ -242,16 +244,8 @@ def forecast(values: Any, criterion: str | Criterion, *, predictors: Mapping[str
     lags = as_int(lags, "lags", minimum=0)
     harmonics = as_int(harmonics, "harmonics", minimum=0)
     run_length = as_int(min_run, "min_run", minimum=1)
-    if cycle is not None:
-        try:
-            cyc = float(cycle)
-        except (TypeError, ValueError) as exc:
-            raise InputError(f"`cycle` must be a positive number of periods; got {cycle!r}") from exc
-        if not (math.isfinite(cyc) and cyc > 0.0):
-            raise InputError(f"`cycle` must be a positive number of periods; got {cycle!r}")
-        cycle = cyc
-    if weekday and dates is None:
-        raise InputError("`weekday` needs `dates`; got weekday=True with dates=None")
+    cycle = as_cycle(cycle)
+    weekday_needs_dates(weekday, dates)
     every = parse_refit(refit)
     x = _numeric(values)
     n = x.size
@@ -263,19 +257,20 @@ def forecast(values: Any, criterion: str | Criterion, *, predictors: Mapping[str
     if why is not None:
         return _absent(n, why)
     if n < 2:
-        raise InputError(f"`values` must have at least 2 rows to forecast from its past; got {n}")
+        raise InputError(f"`values` must have at least 2 rows to forecast from its past; got {n}",
+                         argument="values", value=values)
     q, what = quantity(x, crit)
     last = last_observed(q)
     if last < 0:
         need = "a value" if crit.kind == "compare" else "two observed values (a change needs a previous one)"
         raise InputError(f"`values` has no {what} to learn from: it needs {need}; got {seen.size} "
-                         f"observed of {n} rows")
+                         f"observed of {n} rows", argument="values", value=values)
     n_lags = max(lags, 1) if crit.kind == "compare" else lags
     if horizon + max(n_lags, 1) - 1 > last:
         longest = last - max(n_lags, 1) + 1
         raise InputError(f"`horizon` is longer than the data: with {last + 1} rows up to the last "
                          f"observed {what} and lags={lags} it can be at most {max(longest, 0)}; "
-                         f"got {horizon}")
+                         f"got {horizon}", argument="horizon", value=horizon)
     if train_size is not None:
         train_size = as_int(train_size, "train_size", minimum=1, maximum=n)
     _check_lengths(n, predictors, known_ahead, dates)
@@ -286,7 +281,8 @@ def forecast(values: Any, criterion: str | Criterion, *, predictors: Mapping[str
     design.terms = [f"{label} {t[len('event '):]}" if t.startswith("event t-") else t for t in design.terms]
     if len(set(design.terms)) < len(design.terms):
         twice = next(t for t in design.terms if design.terms.count(t) > 1)
-        raise InputError(f"term names must be unique; got {twice!r} twice (rename the predictor)")
+        raise InputError(f"term names must be unique; got {twice!r} twice (rename the predictor)",
+                         argument="predictors", value=twice)
     res = _rolling.run(q, design, last=last, horizon=horizon, train_size=train_size, every=every)
     side, cut, strict = _event_side(crit)
     prob = _probability(res.mean, res.scale, res.dof, side, cut, strict)

@@ -415,6 +415,8 @@ def test_bad_input(kwargs, needle):
     with pytest.raises(InputError) as err:
         valuemodel.forecast(values, criterion, **kwargs)
     assert needle in str(err.value)
+    named = err.value.argument.split("[")[0]          # every error names the argument it is about
+    assert named in needle or (named == "predictors" and "twice" in needle), err.value.argument
 
 
 def test_quantity_of_a_text_rule_is_an_error():
