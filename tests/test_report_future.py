@@ -115,3 +115,24 @@ def test_warnings_reach_the_json_and_the_command_line_capped(tmp_path, capsys):
     # and in the JSON of the unchanged refresh, from tocsin's record
     _, kept = refresh_json(capsys, path)
     assert kept["warnings"] == every
+
+
+def test_hourly_data_name_the_next_period_with_its_hour(tmp_path, capsys):
+    """Hourly readings that end on the last observation: the future periods are the next hours, and the
+    report's ``next_period`` names the hour (ISO 8601 date and time, as ``future`` does), not only the
+    day. Invented 0/1 readings (seeded)."""
+    import datetime as dt
+
+    from test_refresh import job_table, write_book
+
+    start = dt.datetime(2026, 3, 1, 0, 0)
+    values = alarm_values(n=200)
+    rows = [["Hour", "Alarm"]] + [[start + dt.timedelta(hours=i), v] for i, v in enumerate(values)]
+    job = {**ALARM_JOB, "date_column": "Hour", "horizon": 3}
+    path = write_book(tmp_path / "hourly.xlsx", {"Log": rows, "tocsin": job_table(job)})
+    report, out = refresh_json(capsys, path)
+    assert report["status"] == "refreshed" and out["status"] == "ok", out
+    last = start + dt.timedelta(hours=len(values) - 1)
+    hours = [(last + dt.timedelta(hours=k)).isoformat() for k in (1, 2, 3)]
+    assert [f["period"] for f in out["future"]] == hours
+    assert out["next_period"] == hours[0]                    # e.g. 2026-03-09T08:00:00, not 2026-03-09

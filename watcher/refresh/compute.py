@@ -33,7 +33,7 @@ from sheetfns.scorecard import (
     weekday_terms,
 )
 from watcher.refresh.jobs import Job, resolve
-from watcher.refresh.periods import MAX_TABLE_ROWS, in_time_order, with_future
+from watcher.refresh.periods import MAX_TABLE_ROWS, in_time_order, period_text, with_future
 from watcher.refresh.texts import VERSION
 
 __all__ = ["MAX_TABLE_ROWS", "JobOutcome", "compute_job", "digest", "event_text", "settings_for", "summary"]
@@ -157,9 +157,8 @@ def summary(o: JobOutcome) -> dict[str, Any]:
     out: dict[str, Any] = {"verdict": ev.verdict, "best_method": best, "next_period": None,
                            "next_probability": None}
     if ev.last_observed + 1 < ev.n:
-        d = o.data.dates
-        out["next_period"] = (str(d[ev.last_observed + 1].astype("datetime64[D]")) if d is not None
-                              else f"row {ev.last_observed + 2}")
+        named = period_text(o.data.dates, ev.last_observed + 1)
+        out["next_period"] = named if named is not None else f"row {ev.last_observed + 2}"
         if ev.best in PROBABILITY_METHODS:  # a 0/1 method states no chance (DESIGN.md §8)
             p = ev.headline()[ev.best][1]
             out["next_probability"] = None if math.isnan(p) else p

@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import dataclasses
 from types import MappingProxyType
+from typing import Any
 
 import numpy as np
 
@@ -22,7 +23,7 @@ from sheetfns.errors import PartitionError
 from sheetfns.partition import UNITS, next_periods, time_order
 from watcher.refresh.reader import SheetData
 
-__all__ = ["MAX_TABLE_ROWS", "in_time_order", "with_future", "show_stamp"]
+__all__ = ["MAX_TABLE_ROWS", "in_time_order", "period_text", "with_future", "show_stamp"]
 
 MAX_TABLE_ROWS = 1_048_575  # data rows below the row table's header (ECMA-376 Part 1, 18.3.1.73)
 
@@ -31,6 +32,18 @@ def show_stamp(d: np.datetime64) -> str:
     """A date as the notes show it: ``2024-03-01``, or ``2024-03-01 06:00`` with a time of day."""
     s = str(np.datetime_as_string(d.astype("datetime64[s]"), unit="m"))
     return s[:10] if s.endswith("T00:00") else s.replace("T", " ")
+
+
+def period_text(dates: Any, t: int) -> str | None:
+    """Row ``t``'s date as the report and the alerts name a period: ISO ``2024-03-01``, or
+    ``2024-03-01T06:00:00`` with a time of day; None without dates or without a date in that row."""
+    if dates is None or not 0 <= t < len(dates):
+        return None
+    stamp = np.datetime64(dates[t], "s")
+    if np.isnat(stamp):
+        return None
+    day = stamp.astype("datetime64[D]")
+    return str(day) if stamp == day else str(stamp)
 
 
 def in_time_order(data: SheetData) -> tuple[SheetData, str | None]:

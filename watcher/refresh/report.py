@@ -19,9 +19,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-import numpy as np
-
 from watcher.refresh.compute import JobOutcome, summary
+from watcher.refresh.periods import period_text
 
 __all__ = ["JobReport", "RefreshReport", "future_entries", "job_record", "job_report", "job_warnings"]
 
@@ -69,14 +68,11 @@ class RefreshReport:
 
 
 def _period(dates: Any, t: int) -> str | int:
-    """Row ``t``'s period as the report names it: its ISO date (with the time of day when there is one),
-    or the period's number (1-based) for a job without dates or a row without a date."""
-    if dates is not None and 0 <= t < len(dates):
-        stamp = np.datetime64(dates[t], "s")
-        if not np.isnat(stamp):
-            day = stamp.astype("datetime64[D]")
-            return str(day) if stamp == day else str(stamp)
-    return t + 1
+    """Row ``t``'s period as the report names it: its ISO date (with the time of day when there is one,
+    :func:`~watcher.refresh.periods.period_text`), or the period's number (1-based) for a job without
+    dates or a row without a date."""
+    text = period_text(dates, t)
+    return t + 1 if text is None else text
 
 
 def future_entries(evaluation: Any, dates: Any = None) -> list[dict[str, Any]]:
