@@ -6,12 +6,27 @@ was expected and quotes what came, e.g. "`horizon` must be an integer >= 1; got 
 """
 from __future__ import annotations
 
+import re
 from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
 
 from sheetfns.errors import InputError
+
+_PLAIN_NUMBER = re.compile(r"\s*[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?\s*")
+
+
+def plain_number(text: str) -> float | None:
+    """The number a text holds when it is a plain decimal number (``"1150"``, ``" -3.5 "``, ``"2e3"``),
+    else None: thousands separators, percent signs, currency and words (``"1,150"``, ``"12%"``) stay
+    text, because their meaning depends on the locale or the user. The one rule for text cells, in the
+    spreadsheet functions and in the refresh's job table and data columns alike.
+
+    >>> plain_number(" -3.5 "), plain_number("1,150"), plain_number("2e3")
+    (-3.5, None, 2000.0)
+    """
+    return float(text) if _PLAIN_NUMBER.fullmatch(text) else None
 
 
 def _show(value: Any) -> str:

@@ -61,7 +61,7 @@ def test_numbers_blank_bool_and_text_numbers():
 def test_ambiguous_text_is_not_read_as_a_number(text):
     # Thousands separators and decimal commas depend on the locale, so "1,150" could be 1150 or 1.15
     # (common practice: never guess a locale); "nan"/"inf"/"1_000" are Python spellings, not cell text.
-    assert c.text_number(text) is None
+    assert c.plain_number(text) is None
     expected = f"`values` must hold numbers; got the text '{text}' in row 2"
     with pytest.raises(InputError, match=re.escape(expected)):
         c.numbers([1.0, text], "values")

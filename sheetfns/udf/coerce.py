@@ -20,20 +20,18 @@ from __future__ import annotations
 
 import datetime as dt
 import functools
-import re
 import warnings
 from collections.abc import Callable, Sequence
 from typing import Any, TypeVar
 
 import numpy as np
 
-from sheetfns.checks import as_int
+from sheetfns.checks import as_int, plain_number
 from sheetfns.errors import InputError, TocsinError
 
 ERROR_PREFIX = "#tocsin: "
 
 _F = TypeVar("_F", bound=Callable[..., Any])
-_PLAIN_NUMBER = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?")
 _EXCEL_EPOCH = np.datetime64("1899-12-30", "us")  # serial 0 of the 1900 date system (serials >= 61)
 _US_PER_DAY = 86_400 * 10**6
 _LAST_SERIAL = 2_958_465                            # 9999-12-31, the last date of the 1900 date system
@@ -113,13 +111,6 @@ def column_cells(value: Any, name: str) -> list[Any]:
 # --------------------------------------------------------------------------------------------------
 # cell values
 # --------------------------------------------------------------------------------------------------
-def text_number(text: str) -> float | None:
-    """The number a text cell holds when it is a plain decimal number (``" 1150 "``, ``"-2.5e3"``),
-    else None. Thousands separators, percent signs, currency and words stay text."""
-    s = text.strip()
-    return float(s) if _PLAIN_NUMBER.fullmatch(s) else None
-
-
 def _cell_error(name: str, row: int, what: str, got: Any) -> InputError:
     if isinstance(got, str):
         came = f"the text {_show(got)}"
@@ -146,7 +137,7 @@ def numbers(cells: Sequence[Any], name: str, *, keep_text: bool = False) -> np.n
         vals = list(cells)
         text_at = []
         for i in np.flatnonzero(np.fromiter((type(v) is str for v in cells), bool, len(cells))).tolist():
-            num = text_number(vals[i])
+            num = plain_number(vals[i])
             if num is not None:
                 vals[i] = num
             elif vals[i].strip() == "":
@@ -168,7 +159,7 @@ def numbers(cells: Sequence[Any], name: str, *, keep_text: bool = False) -> np.n
         if v is None:
             out[i] = np.nan
         elif isinstance(v, str):
-            num = text_number(v)
+            num = plain_number(v)
             if num is not None:
                 out[i] = num
             elif v.strip() == "":
@@ -277,7 +268,7 @@ def number_table(value: Any, name: str, *, rows: int, of: str = "the events") ->
     width = len(cells[0])
     labels = [f"{name} {j + 1}" for j in range(width)]
     first = cells[0]
-    if (len(cells) == rows + 1 and all(isinstance(v, str) and text_number(v) is None and v.strip()
+    if (len(cells) == rows + 1 and all(isinstance(v, str) and plain_number(v) is None and v.strip()
                                        for v in first)):
         labels = [v.strip() for v in first]
         if len(set(labels)) < len(labels):
@@ -313,7 +304,7 @@ def option_int(value: Any, name: str, default: int | None, *, minimum: int | Non
     if _blank(value):
         return default
     if isinstance(value, str):
-        num = text_number(value)
+        num = plain_number(value)
         if num is None:
             raise InputError(f"`{name}` must be a whole number; got the text {_show(value)}")
         value = num
@@ -326,7 +317,7 @@ def option_float(value: Any, name: str, default: float | None, *, positive: bool
     value = _single(value, name)
     if _blank(value):
         return default
-    num = text_number(value) if isinstance(value, str) else value
+    num = plain_number(value) if isinstance(value, str) else value
     if num is None or isinstance(num, (bool, np.bool_, dt.date)):
         raise InputError(f"`{name}` must be a number; got {_show(value)}")
     try:

@@ -1,7 +1,8 @@
 """What a cell value means to tocsin and how a message shows it: one home for each of these rules.
 
-* :func:`plain_number`: text that is a plain decimal number (``"1150"``, ``" -3.5 "``, ``"2e3"``) is read
-  as that number, in the job table and in data columns alike; anything else (``"1,150"``, ``"12%"``) stays
+* :func:`plain_number` (its home is :func:`sheetfns.checks.plain_number`, shared with the spreadsheet
+  functions): text that is a plain decimal number (``"1150"``, ``" -3.5 "``, ``"2e3"``) is read as that
+  number, in the job table and in data columns alike; anything else (``"1,150"``, ``"12%"``) stays
   text, because its meaning depends on the locale or the user.
 * :func:`text_stamp`: ISO text (``2024-03-01``, ``2024-03-01 06:00``) as a date or a date-time.
 * :func:`serial_stamp`: a spreadsheet serial number as a date-time in the workbook's date system
@@ -12,26 +13,17 @@
 from __future__ import annotations
 
 import datetime as dt
-import re
 from typing import Any
 
 import numpy as np
 
+from sheetfns.checks import plain_number
+
 __all__ = ["plain_number", "text_stamp", "serial_stamp", "serial_stamps", "show", "cell_text"]
 
-_PLAIN_NUMBER = re.compile(r"\s*[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?\s*")
 _SERIAL_ORIGIN = {False: dt.datetime(1899, 12, 30), True: dt.datetime(1904, 1, 1)}
 SHOW_TEXT_MAX = 50
 """Characters of a text value a message quotes before it is cut with '...'."""
-
-
-def plain_number(text: str) -> float | None:
-    """The number ``text`` holds when it is a plain decimal number, else None.
-
-    >>> plain_number(" -3.5 "), plain_number("1,150"), plain_number("2e3")
-    (-3.5, None, 2000.0)
-    """
-    return float(text) if _PLAIN_NUMBER.fullmatch(text) else None
 
 
 def text_stamp(text: str) -> dt.datetime | dt.date | None:
