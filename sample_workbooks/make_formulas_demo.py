@@ -45,6 +45,11 @@ from pathlib import Path
 from typing import Any
 
 HERE = Path(__file__).resolve().parent
+try:
+    from watcher.refresh.texts import CAUTION  # the one caution (DESIGN.md §9)
+except ModuleNotFoundError:
+    sys.path.insert(0, str(HERE.parent))          # a source checkout: the repository root
+    from watcher.refresh.texts import CAUTION
 FILE_NAME = "formulas_demo.xlsx"
 ODS_NAME = "formulas_demo.ods"
 CALC_PREFIX = "TOCSIN."         # LibreOffice 7.x: the add-in's service name, dot, the function
@@ -75,8 +80,7 @@ ABOUT = (
     "Without the add-in the cells show the values saved in the file; a spreadsheet program that "
     "recalculates them shows #NAME? instead.",
     "",
-    "Caution: these are statistical forecasts from past data, not a substitute for official warnings, "
-    "clinical or engineering judgement, or the procedures that apply where you work.",
+    CAUTION,
 )
 ABOUT_CALC = (
     "tocsin spreadsheet functions in LibreOffice Calc: a demo",
