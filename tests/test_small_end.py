@@ -1,8 +1,9 @@
 """The small end: a refresh imports only what it needs (measured costs in DEVELOPERS.md, The core):
 no scipy (the Diebold-Mariano tail comes from sheetfns/_ols/tdist.py, checked against scipy in
 tests/test_stats_t.py and tests/test_scores_reference.py), no statsmodels, no pandas (the sheets are
-written from arrays; the DataFrame tables of the library are made only when asked for), and no
-watcher machinery for a command that does not watch."""
+written from arrays; the DataFrame tables of the library are made only when asked for), no numpy.ma
+(np.median's first call imports it: ~25 ms), and no watcher machinery for a command that does not
+watch."""
 from __future__ import annotations
 
 import shutil
@@ -18,7 +19,7 @@ def test_refresh_command_imports_no_scipy_statsmodels_pandas_or_watcher(tmp_path
     shutil.copyfile(ROOT / "sample_workbooks" / "island_ferry.xlsx", book)
     code = ("import sys\nfrom watcher.cli import main\nrc = main(['refresh', sys.argv[1]])\n"
             "print(rc, sorted(m for m in ('scipy', 'statsmodels', 'pandas', 'watcher.watch.service', "
-            "'watchdog', 'smtplib', 'importlib.metadata') "
+            "'watchdog', 'smtplib', 'importlib.metadata', 'numpy.ma') "
             "if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code, str(book)], capture_output=True, text=True, timeout=300,
                          cwd=ROOT)

@@ -92,7 +92,8 @@ def time_axis(dates: Any, n: int) -> TimeAxis:
     else:
         days, months, weekday, valid = _calendar_of_any(raw, dates)
     gaps = np.diff(days[valid])
-    gap = float(np.median(gaps)) if gaps.size else 1.0
+    # the median gap: np.median's first call imports numpy.ma (~25 ms of a small command's ~0.4 s)
+    gap = float(np.sort(gaps)[[(gaps.size - 1) // 2, gaps.size // 2]].mean()) if gaps.size else 1.0
     if 0.5 < gap < 1.5:
         tau, unit = days, "days since the first date"
     elif 6.0 <= gap <= 8.0:
