@@ -163,7 +163,8 @@ def _roc(blocks: list[Any], charts: list[ChartSpec], r: int, ev: Evaluation) -> 
     hit = np.asarray(roc.hit_rate, dtype=float)
     thr = np.asarray(roc.threshold, dtype=float)
     if len(far) > MAX_ROC_POINTS:  # a readable table: evenly spaced points, both ends kept
-        keep = np.unique(np.linspace(0, len(far) - 1, MAX_ROC_POINTS).round().astype(int))
+        idx = np.linspace(0, len(far) - 1, MAX_ROC_POINTS).round().astype(int)   # increasing
+        keep = idx[np.concatenate(([True], np.diff(idx) > 0))]  # (np.unique would import numpy.ma)
         far, hit, thr = far[keep], hit[keep], thr[keep]
     blocks.append(Cells(r, 0, ((("ROC points of the logistic probabilities (validation period)", "bold"),),)))
     diag = np.full(len(far), np.nan)
