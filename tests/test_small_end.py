@@ -19,7 +19,8 @@ def test_refresh_command_imports_no_scipy_statsmodels_pandas_or_watcher(tmp_path
     shutil.copyfile(ROOT / "sample_workbooks" / "island_ferry.xlsx", book)
     code = ("import sys\nfrom watcher.cli import main\nrc = main(['refresh', sys.argv[1]])\n"
             "print(rc, sorted(m for m in ('scipy', 'statsmodels', 'pandas', 'watcher.watch.service', "
-            "'watchdog', 'smtplib', 'importlib.metadata', 'numpy.ma') "
+            "'watchdog', 'smtplib', 'importlib.metadata', 'numpy.ma', 'statistics', 'socket', "
+            "'subprocess') "
             "if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code, str(book)], capture_output=True, text=True, timeout=300,
                          cwd=ROOT)

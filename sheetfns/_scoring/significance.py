@@ -8,7 +8,6 @@ from __future__ import annotations
 
 import math
 import warnings
-from statistics import NormalDist
 from typing import Any
 
 import numpy as np
@@ -288,6 +287,8 @@ def wilson(successes: float, n: float, confidence: float = 0.95) -> tuple[float,
         q.mark("wilson interval")
         q.warn("n = 0")
         return math.nan, math.nan
+    from statistics import NormalDist  # lazy: statistics imports decimal and fractions (~10 ms)
+
     z = NormalDist().inv_cdf(0.5 + conf / 2.0)
     p = x / m
     z2n = z * z / m

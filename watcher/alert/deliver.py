@@ -23,7 +23,6 @@ from __future__ import annotations
 import base64
 import os
 import signal
-import subprocess
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
@@ -33,6 +32,7 @@ from watcher.alert.state import CHANNELS
 if TYPE_CHECKING:  # the alert's text needs the sheet layout (numpy, the scorecard); delivery does not
     import smtplib
     import ssl
+    import subprocess
 
     from watcher.alert.message import Alert
 
@@ -139,6 +139,8 @@ class Dispatcher:
         env = {k: v for k, v in os.environ.items() if k not in SECRET_VARIABLES}
         posix = os.name == "posix"
         payload = (alert.to_json() + "\n").encode("utf-8")  # before the start: a bad alert starts nothing
+        import subprocess  # lazy: a refresh that runs no command does not load it (~5 ms)
+
         try:
             proc = subprocess.Popen(  # noqa: S603  (the operator's own argument list; no shell)
                 self.command, stdin=subprocess.PIPE, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE,
@@ -237,6 +239,8 @@ def _login(smtp: smtplib.SMTP, user: str, password: str) -> None:
 
 def _reap(proc: subprocess.Popen) -> None:
     """Close our ends of the pipes and collect the killed child, so nothing is left open."""
+    import subprocess
+
     for pipe in (proc.stdin, proc.stdout, proc.stderr):
         if pipe is not None:
             try:

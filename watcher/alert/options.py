@@ -13,7 +13,6 @@ import os
 import re
 import shlex
 import shutil
-import socket
 from collections.abc import Mapping
 from typing import TYPE_CHECKING, Any
 
@@ -184,6 +183,8 @@ def _login(env: Mapping[str, str]) -> tuple[str | None, str | None]:
 
 
 def _default_sender() -> str:
+    import socket  # lazy: only a mail needs the host's name
+
     name = socket.getfqdn()
     address = f"tocsin@{name}"
     return address if _ADDRESS.fullmatch(address) else "tocsin@localhost"
