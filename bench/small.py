@@ -8,7 +8,9 @@ jobs), so start-up and imports count, as for a user. The project's modules are c
 first (``compileall``), as ``pip install`` does; without that every start would compile them again.
 Printed: the median seconds of each, the ratio (target: tocsin at least 2x faster), the refresh itself
 inside one process (imports excluded), and what the command spends importing the big libraries
-(``python -X importtime``, cumulative milliseconds of each top-level package it imports).
+(``python -X importtime``, cumulative milliseconds of each top-level package it imports), and two
+floors: the interpreter starting and ending, and the same with numpy, lxml and python-calamine
+imported (openpyxl imports numpy too when it is installed).
 """
 from __future__ import annotations
 
@@ -28,6 +30,7 @@ FERRY = ROOT / "sample_workbooks" / "island_ferry.xlsx"
 ENV = {**os.environ, "PYTHONPATH": str(ROOT)}
 OPENPYXL = ("import sys, openpyxl\nwb = openpyxl.load_workbook(sys.argv[1])\nws = wb.create_sheet('new')\n"
             "ws['A1'] = 1\nwb.save(sys.argv[1])\n")
+FLOOR = "import numpy, lxml.etree, python_calamine"
 WATCHED = ("numpy", "pandas", "scipy", "statsmodels", "lxml.etree", "python_calamine", "openpyxl", "watchdog")
 
 
@@ -62,13 +65,15 @@ def main(argv: list[str] | None = None) -> int:
         folder = Path(tmp)
         script = folder / "openpyxl_add_sheet.py"
         script.write_text(OPENPYXL)
-        ours, theirs = [], []
+        ours, theirs, bare, floor = [], [], [], []
         for i in range(args.runs):
             a, b = folder / f"t{i}.xlsx", folder / f"o{i}.xlsx"
             shutil.copyfile(FERRY, a)
             shutil.copyfile(FERRY, b)
             ours.append(_run([sys.executable, "-m", "watcher.cli", "refresh", str(a)]))
             theirs.append(_run([sys.executable, str(script), str(b)]))
+            bare.append(_run([sys.executable, "-c", "pass"]))
+            floor.append(_run([sys.executable, "-c", FLOOR]))
         shutil.copyfile(FERRY, folder / "inside.xlsx")
         inside = subprocess.run(
             [sys.executable, "-c", "import sys, shutil, time\n"
@@ -86,6 +91,8 @@ def main(argv: list[str] | None = None) -> int:
     print(f"  openpyxl load, add a sheet, save      {t_theirs:6.2f} s")
     print(f"  ratio openpyxl / tocsin = {t_theirs / t_ours:.2f}  (target >= 2)")
     print(f"  the refresh inside one process (imports done, second workbook) {float(inside):.2f} s")
+    print(f"  floors: the interpreter alone {statistics.median(bare):.2f} s; importing numpy, lxml and "
+          f"python-calamine {statistics.median(floor):.2f} s")
     print("  imports of the command (cumulative ms): "
           + ", ".join(f"{k} {v:.0f}" for k, v in sorted(imports.items(), key=lambda kv: -kv[1])))
     return 0
