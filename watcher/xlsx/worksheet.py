@@ -222,8 +222,11 @@ def _numeric_slots(x: np.ndarray, sid: int, suffix: str, rows: list[str]) -> lis
         return [rows, pre, texts, post]
     gaps = ~finite
     texts[gaps] = ""
-    before, after = np.full(len(x), pre, dtype=object), np.full(len(x), post, dtype=object)
-    before[gaps], after[gaps] = blank, suffix
+    # markup by table lookup (a 0/1 index per row): several times faster than numpy.full of an object
+    # array and assigning the gaps after
+    which = gaps.view(np.int8)
+    before = np.array([pre, blank], dtype=object).take(which)
+    after = np.array([post, suffix], dtype=object).take(which)
     return [rows, before, texts, after]
 
 
