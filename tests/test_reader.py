@@ -492,3 +492,33 @@ def test_header_row_read_alone_by_writers_and_declined_where_unsure(tmp_path):
             head = book.header("Data")
             assert ("Data" not in book._grids) == quick, name
         assert head == _grid_header(tmp_path / name, "Data"), name
+
+
+def test_a_big_read_imports_pandas_while_calamine_parses(tmp_path):
+    # In a fresh interpreter (pandas not yet imported): reading a job's columns of a workbook from
+    # PREFETCH_FROM bytes starts importing pandas in a thread; the columns read are those of a read
+    # without it. Dates written by xlsxwriter, an independent writer (module docstring).
+    import subprocess
+    import sys
+
+    path = _xlsx(tmp_path / "d.xlsx", [["date", "n"], *[[dt.date(2024, 1, 1) + dt.timedelta(days=i), float(i)]
+                                                      for i in range(40)]])
+    script = (
+        "import sys, threading\n"
+        "from watcher.refresh import reader\n"
+        "assert 'pandas' not in sys.modules\n"
+        f"plain = reader.read_sheet({str(path)!r}, 'Data', ['n'], date_column='date')\n"
+        "assert 'pandas' not in sys.modules  # below PREFETCH_FROM (and 100,000 cells): no pandas\n"
+        "reader.PREFETCH_FROM = 0\n"
+        f"data = reader.read_sheet({str(path)!r}, 'Data', ['n'], date_column='date')\n"
+        "for t in threading.enumerate():\n"
+        "    if t.name == 'tocsin-import-pandas':\n"
+        "        t.join()\n"
+        "assert 'pandas' in sys.modules\n"
+        "assert (data.columns['n'] == plain.columns['n']).all() and (data.dates == plain.dates).all()\n"
+        "print(len(data.dates), str(data.dates[-1]))\n")
+    root = Path(__file__).resolve().parent.parent
+    out = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, cwd=tmp_path,
+                         env={**__import__("os").environ, "PYTHONPATH": str(root)}, timeout=120)
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.split() == ["40", "2024-02-09T00:00:00"]

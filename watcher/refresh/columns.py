@@ -23,7 +23,7 @@ import numpy as np
 from sheetfns.errors import InputError
 from watcher.refresh.cells import plain_number, serial_stamps, show, text_stamp
 
-__all__ = ["MAX_COLUMNS", "column_index", "is_letter", "blank", "numbers_of", "dates_of"]
+__all__ = ["MAX_COLUMNS", "column_index", "is_letter", "blank", "numbers_of", "dates_of", "prefetch_pandas"]
 
 MAX_COLUMNS = 16_384          # columns A..XFD
 _LETTERS = re.compile(r"[A-Za-z]{1,3}")
@@ -154,6 +154,30 @@ for the ferry sample when every read imported it). A refresh that computes impor
 
 def _use_pandas(cells: int) -> bool:
     return cells >= PANDAS_FROM or "pandas" in sys.modules
+
+
+PREFETCH_FROM = 4 * 2**20
+"""Workbook size (bytes) from which reading a job's columns first starts importing pandas in a thread
+(:func:`prefetch_pandas`): calamine parses a sheet without holding the GIL (2.5 s for a full-height
+sheet of 24 MiB), so the import (0.3-0.7 s), which the date conversion and the computation need next,
+runs meanwhile on another core. Below it the parse is too short to hide the import."""
+
+
+def prefetch_pandas() -> None:
+    """Start importing pandas in a daemon thread unless it is imported (or being imported) already; a
+    later ``import pandas`` waits for that import to finish (Python's per-module import lock)."""
+    if "pandas" in sys.modules:
+        return
+    import importlib
+    import threading
+
+    def run() -> None:
+        try:
+            importlib.import_module("pandas")
+        except Exception:  # noqa: BLE001 - the later import in the main thread reports it
+            pass
+
+    threading.Thread(target=run, name="tocsin-import-pandas", daemon=True).start()
 
 
 def _stamp_seconds(values: np.ndarray) -> np.ndarray:

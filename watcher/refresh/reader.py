@@ -55,7 +55,15 @@ import numpy as np
 import python_calamine
 
 from sheetfns.errors import InputError
-from watcher.refresh.columns import blank, column_index, dates_of, is_letter, numbers_of
+from watcher.refresh.columns import (
+    PREFETCH_FROM,
+    blank,
+    column_index,
+    dates_of,
+    is_letter,
+    numbers_of,
+    prefetch_pandas,
+)
 from watcher.refresh.errors import BookError, ReaderError
 from watcher.refresh.parts import header_cells, parts_of
 from watcher.xlsx.spec import col_letter as column_letter  # one column-letter rule for reading and writing
@@ -317,6 +325,12 @@ class Book:
         raise ReaderError(f"{what} {sheet!r} not found in {self.name}{hint}", book=self.name,
                           sheet=str(sheet), hint=hint)
 
+    def _size(self) -> int:
+        try:
+            return self.path.stat().st_size
+        except OSError:
+            return 0
+
     def date1904(self) -> bool:
         """Whether the workbook uses the 1904 date system (for serial numbers in date columns)."""
         if self._date1904 is None:
@@ -418,6 +432,9 @@ class Book:
     def read(self, sheet: str, columns: Sequence[str], *, date_column: str | None = None,
              text_columns: Iterable[str] = (), max_warnings: int = 10) -> SheetData:
         """Read the named columns of ``sheet``; see :func:`read_sheet`."""
+        if self._cal is not None and self.resolve_sheet(sheet) not in self._grids \
+                and self._size() >= PREFETCH_FROM:
+            prefetch_pandas()   # imported while calamine parses (see columns.PREFETCH_FROM)
         grid = self._grid(sheet)
         name = self.resolve_sheet(sheet)
         head = Header(book=self.name, sheet=name, texts=grid.texts, row=grid.header_row)
