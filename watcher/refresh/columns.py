@@ -13,6 +13,7 @@ The rules (the reader's module docstring tells them from the user's side):
 from __future__ import annotations
 
 import datetime as dt
+import itertools
 import re
 import sys
 from collections.abc import Callable
@@ -29,19 +30,27 @@ MAX_COLUMNS = 16_384          # columns A..XFD
 _LETTERS = re.compile(r"[A-Za-z]{1,3}")
 _EPOCH = dt.datetime(1970, 1, 1)
 _EPOCH_ORDINAL = _EPOCH.toordinal()
-_type_of = np.frompyfunc(type, 1, 1)
-_NUMERIC_TYPES = [float, int, bool]
-_NUMBER_TYPES = [float, int]
-_STAMP_TYPES = [dt.datetime, dt.date]
-_TEXT_TYPE = [str]
-_NONE_TYPE = [type(None)]
+_CODES = {float: 0, int: 1, bool: 2, dt.datetime: 3, dt.date: 4, str: 5, type(None): 6}
+_OTHER = 7
+_NUMERIC_TYPES = (0, 1, 2)
+_NUMBER_TYPES = (0, 1)
+_STAMP_TYPES = (3, 4)
+_TEXT_TYPE = (5,)
+_NONE_TYPE = (6,)
 
 
-def _of_type(kinds: np.ndarray, types: list[type]) -> np.ndarray:
-    """Which cells (their types, as ``_type_of`` gives them) are of one of ``types``; element-wise
-    identity tests, several times faster than ``numpy.isin`` on object arrays."""
-    out = np.zeros(kinds.shape, dtype=bool)
-    for t in types:
+def _type_of(col: list[Any]) -> np.ndarray:
+    """The exact type of every cell as a small code (``_CODES``; 7 for any other type): one dict
+    look-up per cell, then every test below is on integers (the object array of types and its
+    element-wise comparisons cost twice as much)."""
+    return np.fromiter(map(_CODES.get, map(type, col), itertools.repeat(_OTHER)), dtype=np.int8,
+                       count=len(col))
+
+
+def _of_type(kinds: np.ndarray, types: tuple[int, ...]) -> np.ndarray:
+    """Which cells (their codes, as ``_type_of`` gives them) are of one of ``types``."""
+    out = kinds == types[0]
+    for t in types[1:]:
         out |= kinds == t
     return out
 
@@ -83,7 +92,7 @@ def numbers_of(col: list[Any], letter: str, first: int, *, keep_text: bool,
     n = len(col)
     obj = np.empty(n, dtype=object)
     obj[:] = col
-    kinds = _type_of(obj)
+    kinds = _type_of(col)
     numeric = _of_type(kinds, _NUMERIC_TYPES)
     out = np.full(n, np.nan)
     if numeric.any():
@@ -201,7 +210,7 @@ def dates_of(col: list[Any], letter: str, first: int, date1904: Callable[[], boo
     n = len(col)
     obj = np.empty(n, dtype=object)
     obj[:] = col
-    kinds = _type_of(obj)
+    kinds = _type_of(col)
     secs = np.zeros(n, dtype=np.int64)
     valid = np.zeros(n, dtype=bool)
     bad = np.zeros(n, dtype=bool)
