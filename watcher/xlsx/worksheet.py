@@ -38,6 +38,7 @@ from watcher.xlsx.xmlwriter import XMLWriter, escape_data, number_text, number_t
 __all__ = ["CHUNK_ROWS", "date_serials", "escape_text", "style_keys", "worksheet_chunks"]
 
 CHUNK_ROWS = 32_768
+_FEW_LABELS = 256  # a text column with at most this many distinct values is coded once, not per chunk
 _SCALE_COLORS = ("FFFFFFFF", "FFFBE3B2", "FFEFA23A")  # white -> light amber -> amber
 _MAX_SERIAL = 2_958_465  # 9999-12-31 in the 1900 system
 _MS_PER_DAY = 86_400_000
@@ -255,6 +256,14 @@ class _ColumnWriter:
         values = col.values
         self.kind = "object"
         self.bad_dates = None
+        self.labels: list | None = None   # a column of few texts: its distinct values and codes
+        if not isinstance(values, np.ndarray) and len(values) > _FEW_LABELS \
+                and set(map(type, values)) <= {str, type(None)}:
+            labels = list(dict.fromkeys(values))
+            if len(labels) <= _FEW_LABELS:
+                code = {v: i for i, v in enumerate(labels)}
+                self.labels = labels
+                self.codes = np.fromiter(map(code.__getitem__, values), dtype=np.intp, count=len(values))
         if isinstance(values, np.ndarray):
             if values.dtype.kind == "M":
                 self.serials, self.bad_dates = date_serials(values, styles.date1904)
@@ -267,7 +276,12 @@ class _ColumnWriter:
     def slots(self, start: int, stop: int, suffix: str, rows: list[str]) -> list:
         """Rows ``start..stop-1`` of the column as slots (see :func:`_numeric_slots`)."""
         col = self.col
-        if self.kind == "object":
+        if self.labels is not None:  # a piece per label, laid out by the codes
+            blank = self.styles.blank(self.sid) + suffix
+            table = np.array([blank if v is None else self.styles.text(self.sid, v) + suffix
+                              for v in self.labels], dtype=object)
+            out = [rows, table.take(self.codes[start:stop])]
+        elif self.kind == "object":
             out = [rows, self._object_pieces(col.values[start:stop], suffix)]
         else:
             x = self.serials[start:stop] if self.kind == "date" else col.values[start:stop]
