@@ -365,6 +365,49 @@ def test_book_serves_header_cells_and_data_from_one_parse(tmp_path, monkeypatch)
     assert loads == ["tocsin", "Data"]      # the header row alone does not load the data sheet
 
 
+@pytest.mark.parametrize("backend", BACKENDS)
+def test_garbage_collector_paused_while_a_sheet_is_parsed_and_restored_after(tmp_path, backend):
+    # the parse makes a list per row; the cyclic collector waits (module reader, _collector_paused)
+    # and is back as it was afterwards, also when the parse fails
+    import gc
+
+    path = _xlsx(tmp_path / "g.xlsx", [["n"], [1.0], [2.0]])
+    seen = []
+    with open_book(path, backend=backend) as book:
+
+        class Probe:
+            def __init__(self, real):
+                self.real = real
+
+            def get_sheet_by_name(self, name):
+                seen.append(gc.isenabled())
+                return self.real.get_sheet_by_name(name)
+
+            def __getattr__(self, attr):
+                return getattr(self.real, attr)
+
+            def __getitem__(self, name):
+                seen.append(gc.isenabled())
+                raise KeyError(name)
+
+        if book._cal is not None:
+            book._cal = Probe(book._cal)
+            assert book.read("Data", ["n"]).columns["n"].tolist() == [1.0, 2.0]
+        else:
+            opx, book._opx = book._opx, Probe(None)
+            with pytest.raises(KeyError):
+                book._load("Data")
+            book._opx = opx
+        assert seen == [False] and gc.isenabled()
+        gc.disable()
+        try:
+            book._grids.clear()
+            book._load("Data")
+            assert not gc.isenabled()         # left off when it was off
+        finally:
+            gc.enable()
+
+
 def test_sheet_data_is_frozen(tmp_path):
     path = _xlsx(tmp_path / "b.xlsx", [["x"], [1]])
     data = read_sheet(path, "Data", ["x"])
