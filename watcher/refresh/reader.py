@@ -496,13 +496,16 @@ def _collector_paused() -> Iterator[None]:
     """Python's cyclic garbage collector paused while a sheet becomes a list of row lists: a million
     new lists set off full collections over all of them again and again (0.45 of the 0.7 s that
     calamine's ``to_python`` took for a full-height sheet). Rows of cells hold no cycles; the
-    collector runs again afterwards as before (it stays off if it was off)."""
+    collector runs again afterwards as before (it stays off if it was off). tocsin freezes nothing
+    otherwise, so ``gc.unfreeze`` below undoes no freeze of its own."""
     was = gc.isenabled()
     gc.disable()
     try:
         yield
     finally:
         if was:
+            gc.freeze()     # the new lists join the oldest generation without being traversed
+            gc.unfreeze()   # (the two young collections that follow would walk them twice more)
             gc.enable()
 
 
