@@ -365,6 +365,49 @@ def test_book_serves_header_cells_and_data_from_one_parse(tmp_path, monkeypatch)
     assert loads == ["tocsin", "Data"]      # the header row alone does not load the data sheet
 
 
+@pytest.mark.parametrize("backend", BACKENDS)
+def test_garbage_collector_paused_while_a_sheet_is_parsed_and_restored_after(tmp_path, backend):
+    # the parse makes a list per row; the cyclic collector waits (module reader, _collector_paused)
+    # and is back as it was afterwards, also when the parse fails
+    import gc
+
+    path = _xlsx(tmp_path / "g.xlsx", [["n"], [1.0], [2.0]])
+    seen = []
+    with open_book(path, backend=backend) as book:
+
+        class Probe:
+            def __init__(self, real):
+                self.real = real
+
+            def get_sheet_by_name(self, name):
+                seen.append(gc.isenabled())
+                return self.real.get_sheet_by_name(name)
+
+            def __getattr__(self, attr):
+                return getattr(self.real, attr)
+
+            def __getitem__(self, name):
+                seen.append(gc.isenabled())
+                raise KeyError(name)
+
+        if book._cal is not None:
+            book._cal = Probe(book._cal)
+            assert book.read("Data", ["n"]).columns["n"].tolist() == [1.0, 2.0]
+        else:
+            opx, book._opx = book._opx, Probe(None)
+            with pytest.raises(KeyError):
+                book._load("Data")
+            book._opx = opx
+        assert seen == [False] and gc.isenabled()
+        gc.disable()
+        try:
+            book._grids.clear()
+            book._load("Data")
+            assert not gc.isenabled()         # left off when it was off
+        finally:
+            gc.enable()
+
+
 def test_sheet_data_is_frozen(tmp_path):
     path = _xlsx(tmp_path / "b.xlsx", [["x"], [1]])
     data = read_sheet(path, "Data", ["x"])
@@ -492,3 +535,35 @@ def test_header_row_read_alone_by_writers_and_declined_where_unsure(tmp_path):
             head = book.header("Data")
             assert ("Data" not in book._grids) == quick, name
         assert head == _grid_header(tmp_path / name, "Data"), name
+
+
+def test_a_big_read_imports_pandas_while_calamine_parses(tmp_path):
+    # In a fresh interpreter (pandas not yet imported): reading a job's columns of a workbook from
+    # PREFETCH_FROM bytes with a date column starts importing pandas in a thread (without one, it does
+    # not); the columns read are those of a read without it. Dates written by xlsxwriter, an independent writer (module docstring).
+    import subprocess
+    import sys
+
+    path = _xlsx(tmp_path / "d.xlsx", [["date", "n"], *[[dt.date(2024, 1, 1) + dt.timedelta(days=i), float(i)]
+                                                      for i in range(40)]])
+    script = (
+        "import sys, threading\n"
+        "from watcher.refresh import reader\n"
+        "assert 'pandas' not in sys.modules\n"
+        f"plain = reader.read_sheet({str(path)!r}, 'Data', ['n'], date_column='date')\n"
+        "assert 'pandas' not in sys.modules  # below PREFETCH_FROM (and 100,000 cells): no pandas\n"
+        "reader.PREFETCH_FROM = 0\n"
+        f"reader.read_sheet({str(path)!r}, 'Data', ['n'])\n"
+        "assert 'pandas' not in sys.modules  # no date column: nothing needs pandas\n"
+        f"data = reader.read_sheet({str(path)!r}, 'Data', ['n'], date_column='date')\n"
+        "for t in threading.enumerate():\n"
+        "    if t.name == 'tocsin-import-pandas':\n"
+        "        t.join()\n"
+        "assert 'pandas' in sys.modules\n"
+        "assert (data.columns['n'] == plain.columns['n']).all() and (data.dates == plain.dates).all()\n"
+        "print(len(data.dates), str(data.dates[-1]))\n")
+    root = Path(__file__).resolve().parent.parent
+    out = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, cwd=tmp_path,
+                         env={**__import__("os").environ, "PYTHONPATH": str(root)}, timeout=120)
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.split() == ["40", "2024-02-09T00:00:00"]

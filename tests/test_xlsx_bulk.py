@@ -17,7 +17,7 @@ import zlib
 import numpy as np
 import pytest
 
-from watcher.xlsx import archive, xmlwriter
+from watcher.xlsx import archive, worksheet, xmlwriter
 from watcher.xlsx.spec import Cells, Column, SheetSpec, Table
 from watcher.xlsx.worksheet import style_keys, worksheet_chunks
 
@@ -48,12 +48,29 @@ def test_bulk_cells_equal_the_cell_by_cell_rule(monkeypatch, fast):
     cols = _columns(n)
     dates = np.arange(np.datetime64("1899-10-01"), np.datetime64("1899-10-01") + n).astype("datetime64[ms]")
     dates[::10] = np.datetime64("NaT")
+    # text columns: a few labels (coded once per column), and many distinct texts (per chunk)
+    labels = tuple(("training", "validation", "future", " a & b <c>")[i % 7 % 4] for i in range(n))
+    many = tuple(f"t{i}" for i in range(n))
     table = SheetSpec("T", (Table(0, 0, None, tuple(Column(c, "dec3") for c in cols)
-                                  + (Column(dates, "date"),)),))
-    rows = tuple(tuple((float(c[i]), "dec3") for c in cols) + ((dates[i], "date"),) for i in range(n))
+                                  + (Column(dates, "date"), Column(labels), Column(many))),))
+    rows = tuple(tuple((float(c[i]), "dec3") for c in cols) + ((dates[i], "date"), (labels[i], "general"),
+                                                             (many[i], "general")) for i in range(n))
     cells = SheetSpec("T", (Cells(0, 0, rows),))
     for chunk_rows in (7, 4096):
         assert _sheet(table, chunk_rows) == _sheet(cells, chunk_rows)
+
+
+def test_coded_text_column_equals_the_per_chunk_path(monkeypatch):
+    # a column of few texts and blanks is coded once (worksheet._FEW_LABELS); the bytes are those of
+    # the per-chunk path, blanks (a styled empty cell in a table) and bold cells included
+    n = 1000
+    labels = tuple(("training", "validation", None, " a & b <c>")[i % 7 % 4] for i in range(n))
+    spec = SheetSpec("T", (Table(0, 0, ("period", "n"), (Column(labels, bold=np.arange(n) % 9 == 0),
+                                                         Column(np.arange(n, dtype=float)))),))
+    coded = {rows: _sheet(spec, rows) for rows in (7, 4096)}
+    monkeypatch.setattr(worksheet, "_FEW_LABELS", 0)
+    for rows, data in coded.items():
+        assert data == _sheet(spec, rows)
 
 
 def test_isal_deflate_is_read_by_zlib_and_zlib_is_the_fallback(tmp_path, monkeypatch):

@@ -139,6 +139,26 @@ def test_number_texts_is_number_text_in_bulk(monkeypatch, fast):
     assert number_texts(np.arange(1, 4, dtype=float)).tolist() == ["1", "2", "3"]
 
 
+def test_number_texts_respells_orjson_outside_its_repr_range(monkeypatch):
+    # Below 1e-4 and from 1e16 orjson spells the shortest digits otherwise than repr ('1.5e-7',
+    # '0.000015'); the bulk path respells its texts, so no number may take the slow repr path there
+    # (the scalar rule, number_text, still calls repr itself and is the reference)
+    assert xmlwriter._orjson is not None
+    x = _many_doubles()
+    rng = np.random.default_rng(13)  # invented data: the 1e-5 .. 1e-4 band, its edges and signs
+    edges = [1e-5, np.nextafter(1e-5, 0), np.nextafter(1e-5, 1), 2e-5, 1.5e-5, 9.999999999999999e-05]
+    band = np.concatenate([rng.uniform(1e-5, 1e-4, 20_000), edges])
+    x = np.concatenate([x, band, -band])
+    ax = np.abs(x)
+    x = x[((ax < 1e-4) | (ax >= 1e16)) & (x != np.trunc(x))]
+
+    def no_repr(_x):
+        raise AssertionError("a number went through repr")
+
+    monkeypatch.setattr(xmlwriter, "_repr_texts", no_repr)
+    assert number_texts(x).tolist() == [number_text(v) for v in x.tolist()]
+
+
 def test_number_attributes_and_elements_take_the_fast_path():
     w = XMLWriter()
     w._empty("c:max", (("val", 1.0),))

@@ -41,11 +41,13 @@ reads it; the other sheets still read). A file that is missing, not a workbook, 
 """
 from __future__ import annotations
 
+import contextlib
 import datetime as dt
 import difflib
+import gc
 import re
 import zipfile
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from types import MappingProxyType
@@ -55,7 +57,15 @@ import numpy as np
 import python_calamine
 
 from sheetfns.errors import InputError
-from watcher.refresh.columns import blank, column_index, dates_of, is_letter, numbers_of
+from watcher.refresh.columns import (
+    PREFETCH_FROM,
+    blank,
+    column_index,
+    dates_of,
+    is_letter,
+    numbers_of,
+    prefetch_pandas,
+)
 from watcher.refresh.errors import BookError, ReaderError
 from watcher.refresh.parts import header_cells, parts_of
 from watcher.xlsx.spec import col_letter as column_letter  # one column-letter rule for reading and writing
@@ -317,6 +327,12 @@ class Book:
         raise ReaderError(f"{what} {sheet!r} not found in {self.name}{hint}", book=self.name,
                           sheet=str(sheet), hint=hint)
 
+    def _size(self) -> int:
+        try:
+            return self.path.stat().st_size
+        except OSError:
+            return 0
+
     def date1904(self) -> bool:
         """Whether the workbook uses the 1904 date system (for serial numbers in date columns)."""
         if self._date1904 is None:
@@ -354,12 +370,13 @@ class Book:
                            f"or unsafe ({_brief(exc)})", book=self.name, sheet=name)
 
     def _load(self, name: str) -> _Grid:
-        if self._cal is not None:
-            # calamine reports a blank cell as '' (kept: every reader below treats '' as blank)
-            rows = self._cal.get_sheet_by_name(name).to_python(skip_empty_area=False)
-        else:
-            ws = self._opx[name]
-            rows = [list(r) for r in ws.iter_rows(values_only=True)]
+        with _collector_paused():
+            if self._cal is not None:
+                # calamine reports a blank cell as '' (kept: every reader below treats '' as blank)
+                rows = self._cal.get_sheet_by_name(name).to_python(skip_empty_area=False)
+            else:
+                ws = self._opx[name]
+                rows = [list(r) for r in ws.iter_rows(values_only=True)]
         top = 0
         while top < len(rows) and all(blank(v) for v in rows[top]):
             top += 1
@@ -418,6 +435,9 @@ class Book:
     def read(self, sheet: str, columns: Sequence[str], *, date_column: str | None = None,
              text_columns: Iterable[str] = (), max_warnings: int = 10) -> SheetData:
         """Read the named columns of ``sheet``; see :func:`read_sheet`."""
+        if date_column is not None and self._cal is not None \
+                and self.resolve_sheet(sheet) not in self._grids and self._size() >= PREFETCH_FROM:
+            prefetch_pandas()   # imported while calamine parses (see columns.PREFETCH_FROM)
         grid = self._grid(sheet)
         name = self.resolve_sheet(sheet)
         head = Header(book=self.name, sheet=name, texts=grid.texts, row=grid.header_row)
@@ -469,6 +489,24 @@ class Book:
             names=MappingProxyType({k: head.texts[j] for k, j in index.items()}),
             dates=dates, date_key=date_key, warnings=tuple(warnings), nrows=nrows, first_row=first,
             backend=self.backend)
+
+
+@contextlib.contextmanager
+def _collector_paused() -> Iterator[None]:
+    """Python's cyclic garbage collector paused while a sheet becomes a list of row lists: a million
+    new lists set off full collections over all of them again and again (0.45 of the 0.7 s that
+    calamine's ``to_python`` took for a full-height sheet). Rows of cells hold no cycles; the
+    collector runs again afterwards as before (it stays off if it was off). tocsin freezes nothing
+    otherwise, so ``gc.unfreeze`` below undoes no freeze of its own."""
+    was = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was:
+            gc.freeze()     # the new lists join the oldest generation without being traversed
+            gc.unfreeze()   # (the two young collections that follow would walk them twice more)
+            gc.enable()
 
 
 def _is_encrypted(exc: BaseException) -> bool:
