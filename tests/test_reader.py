@@ -540,7 +540,8 @@ def test_header_row_read_alone_by_writers_and_declined_where_unsure(tmp_path):
 def test_a_big_read_imports_pandas_while_calamine_parses(tmp_path):
     # In a fresh interpreter (pandas not yet imported): reading a job's columns of a workbook from
     # PREFETCH_FROM bytes with a date column starts importing pandas in a thread (without one, it does
-    # not); the columns read are those of a read without it. Dates written by xlsxwriter, an independent writer (module docstring).
+    # not); the columns read are those of a read without it. Dates written by xlsxwriter, an
+    # independent writer (module docstring).
     import subprocess
     import sys
 
