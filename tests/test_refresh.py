@@ -46,7 +46,7 @@ from sheetfns.scorecard import (
 )
 from watcher import cli
 from watcher.refresh import jobs
-from watcher.refresh.forecast_sheet import table_col
+from watcher.refresh.forecast_sheet import MCNEMAR_BLANK, table_col
 from watcher.refresh.reader import Book
 from watcher.refresh.texts import CAUTION
 
@@ -351,6 +351,9 @@ def check_forecast_sheet(grid: list[list[Any]], core: Core, reader: str) -> None
         same(floats(grid, 2, r + 2 + i, 1), [c[f"{m.key}_vs_best_mcnemar_p"]], f"{what}: {m.key} p")
         same(floats(grid, 3, r + 2 + i, 1), [c[f"{m.key}_vs_best_dm"]], f"{what}: {m.key} DM")
         same(floats(grid, 4, r + 2 + i, 1), [c[f"{m.key}_vs_best_dm_p"]], f"{what}: {m.key} DM p")
+    # a blank McNemar (two 0/1 forecasts that agree on every period) is explained under the table
+    blank = any(np.isnan(c[f"{m.key}_vs_best_mcnemar"]) for m in models)
+    assert (cell(grid, r + 2 + len(models), 0) == MCNEMAR_BLANK) == blank, what
     # Logistic coefficients, then the value model's with its residual scale.
     coef = ev.coefficients
     r = find_row(grid, "term", "estimate")

@@ -212,7 +212,15 @@ def _significance(blocks: list[Any], r: int, ev: Evaluation) -> int:
     header = ("method", "McNemar (0/1)", "p-value", "Diebold-Mariano", "p-value")
     t = Table(r + 1, 0, header, tuple(cols))
     blocks.append(t)
-    return r + 1 + t.height + 1
+    r += 1 + t.height
+    if np.isnan(cols[1].values).any() and not np.isnan(cols[3].values).all():
+        blocks.append(Cells(r, 0, (((MCNEMAR_BLANK, "italic"),),)))
+        r += 1
+    return r + 1
+
+
+MCNEMAR_BLANK = ("McNemar is blank where the two 0/1 forecasts agree on every validation period: with no "
+                 "period where only one of them is right, the test is undefined.")
 
 
 def _logistic_coefficients(blocks: list[Any], r: int, ev: Evaluation) -> int:
