@@ -119,3 +119,32 @@ def plan(usable: np.ndarray, n_terms: int, *, last: int, horizon: int, train_siz
     anchors = t0 + ((targets - t0) // every) * every if every else np.full(targets.size, t0)
     windows = window(anchors - horizon).astype(np.intp)
     return Plan(t0, targets, windows, fixed_window, every, notes)
+
+
+def table_note(window: int, last: int) -> str:
+    """The note on the coefficient table: the fit of ``window`` usable rows behind the forecast of the
+    last observed row."""
+    return (f"coefficient table: the fit on the first {window} usable rows, used for the forecast of "
+            f"{rows_text(last, last)} (the last observed row)")
+
+
+def future_notes(fut: np.ndarray, filled: np.ndarray, usable: int, *, last: int, horizon: int, n: int,
+                 table_from_future: bool, unfilled: str) -> list[str]:
+    """The notes on the future rows: ``fut`` within the horizon, of which ``filled`` got a forecast
+    from the fit on all ``usable`` observed rows (``unfilled`` says why the others did not); that
+    fit shown as the coefficient table when ``table_from_future``; the rows beyond the horizon."""
+    notes = []
+    if fut.size:
+        if filled.size:
+            notes.append(f"future {rows_text(int(filled[0]), int(filled[-1]))}: forecast from a fit on all "
+                         f"{usable} usable observed rows")
+        if filled.size < fut.size:
+            notes.append(f"{fut.size - filled.size} future row(s) within the horizon have no forecast: "
+                         f"{unfilled}")
+        if table_from_future:
+            notes.append("coefficient table: the fit on all usable observed rows (no row had an earlier "
+                         "fit)")
+    if last + horizon < n - 1:
+        notes.append(f"future {rows_text(last + horizon + 1, n - 1, 'has/have')} no forecast: the lagged "
+                     f"inputs end {horizon} row(s) past the last observation")
+    return notes

@@ -34,8 +34,7 @@ import numpy as np
 from sheetfns._logit import irls as _irls
 from sheetfns._logit.design import Design
 from sheetfns._logit.estimate import TOL, fit_complete
-from sheetfns._logit.plan import plan
-from sheetfns._logit.plan import rows_text as _rows
+from sheetfns._logit.plan import future_notes, plan, table_note
 from sheetfns._logit.results import LogitFit, LogitForecast
 
 #: Error allowed in a fitted linear predictor of a warm refit (see the module docstring); the
@@ -218,27 +217,17 @@ def run(y: np.ndarray, design: Design, *, last: int, horizon: int, train_size: i
             notes.append(f"{missing} row(s) have no forecast: a lagged event, value or predictor they "
                          f"need is missing")
         fit_table = roller.get(fits[-1].nobs, need_cov=True)
-        notes.append(f"coefficient table: the fit on the first {fit_table.nobs} usable rows, used for "
-                     f"the forecast of {_rows(last, last)} (the last observed row)")
+        notes.append(table_note(fit_table.nobs, last))
     future_fit = None
     fut = np.arange(last + 1, min(last + horizon, n - 1) + 1)
     if fut.size:
         future_fit = roller.get(usable.size, need_cov=True)
         prob[fut] = _predict_groups(x, fut, np.zeros(fut.size, dtype=int), [future_fit])
-        filled = fut[np.isfinite(prob[fut])]
-        if filled.size:
-            notes.append(f"future {_rows(int(filled[0]), int(filled[-1]))}: forecast from a fit on all "
-                         f"{usable.size} usable observed rows")
-        if filled.size < fut.size:
-            notes.append(f"{fut.size - filled.size} future row(s) within the horizon have no forecast: "
-                         f"a predictor (or date) they need is missing")
-        if fit_table is None:
-            fit_table = future_fit
-            notes.append("coefficient table: the fit on all usable observed rows (no row had an "
-                         "earlier fit)")
-    if last + horizon < n - 1:
-        notes.append(f"future {_rows(last + horizon + 1, n - 1, 'has/have')} no forecast: the lagged "
-                     f"inputs end {horizon} row(s) past the last observation")
+    notes += future_notes(fut, fut[np.isfinite(prob[fut])], usable.size, last=last, horizon=horizon, n=n,
+                          table_from_future=fit_table is None and fut.size > 0,
+                          unfilled="a predictor (or date) they need is missing")
+    if fit_table is None:
+        fit_table = future_fit
     notes += _roller_notes(roller, fit_table)
     shown = fit_table if fit_table is not None else LogitFit(
         np.full(k, np.nan), np.full(k, np.nan), np.nan, False, (), tuple(terms))

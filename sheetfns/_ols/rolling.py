@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from sheetfns._logit.design import Design
-from sheetfns._logit.plan import plan, rows_text
+from sheetfns._logit.plan import future_notes, plan, rows_text, table_note
 from sheetfns._ols.normal import Accumulator, OLSFit, chunks, predict, to_fit
 
 
@@ -86,24 +86,13 @@ def run(q: np.ndarray, design: Design, *, last: int, horizon: int, train_size: i
         if missing:
             notes.append(f"{missing} row(s) have no forecast: a lagged value or predictor they need is "
                          f"missing")
-        notes.append(f"coefficient table: the fit on the first {table_window} usable rows, used for the "
-                     f"forecast of {rows_text(last, last)} (the last observed row)")
+        notes.append(table_note(table_window, last))
     future_fit = fits.get(usable.size) if fut.size else None
-    if fut.size:
-        filled = fut[np.isfinite(scale[fut])]
-        if filled.size:
-            notes.append(f"future {rows_text(int(filled[0]), int(filled[-1]))}: forecast from a fit on "
-                         f"all {usable.size} usable observed rows")
-        if filled.size < fut.size:
-            notes.append(f"{fut.size - filled.size} future row(s) within the horizon have no forecast: "
-                         f"a predictor (or date) they need is missing, or too few rows to fit")
-        if table_fit is None:
-            table_fit = future_fit
-            notes.append("coefficient table: the fit on all usable observed rows (no row had an earlier "
-                         "fit)")
-    if last + horizon < n - 1:
-        notes.append(f"future {rows_text(last + horizon + 1, n - 1, 'has/have')} no forecast: the lagged "
-                     f"inputs end {horizon} row(s) past the last observation")
+    notes += future_notes(fut, fut[np.isfinite(scale[fut])], usable.size, last=last, horizon=horizon, n=n,
+                          table_from_future=table_fit is None and fut.size > 0,
+                          unfilled="a predictor (or date) they need is missing, or too few rows to fit")
+    if table_fit is None:
+        table_fit = future_fit
     if near:
         notes.append(f"near-collinear terms at {near} of {windows.size} fits: solved from the rows by "
                      f"singular value decomposition instead of the normal equations")
