@@ -31,17 +31,11 @@ from _timing import best_of  # noqa: E402
 from calc_headless import Calc  # noqa: E402  (tests/calc_headless.py)
 
 from sheetfns.udf import functions as F  # noqa: E402
+from watcher.xlsx.spec import col_letter  # noqa: E402
 
 DEMO = ROOT / "sample_workbooks" / "formulas_demo.ods"
 
 
-def _col(c: int) -> str:
-    s = ""
-    c += 1
-    while c:
-        c, r = divmod(c - 1, 26)
-        s = chr(65 + r) + s
-    return s
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -85,7 +79,7 @@ def main(argv: list[str] | None = None) -> int:
         out = call()
         assert not (isinstance(out, str) and out.startswith("#tocsin")), (text, out)
         rows = out if isinstance(out, list) else [[out]]
-        target = f"H1:{_col(7 + len(rows[0]) - 1)}{len(rows)}"
+        target = f"H1:{col_letter(7 + len(rows[0]) - 1)}{len(rows)}"
         formulas.append([target, "=" + text])
         plain[text] = (best_of(call, 3), rows[0][0])
     with tempfile.TemporaryDirectory(prefix="tocsin-bench-") as tmp:

@@ -45,6 +45,7 @@ from sheetfns.udf import excel
 from sheetfns.udf import functions as F
 from sheetfns.udf.calc import extension, face
 from sheetfns.udf.registry import FUNCTIONS
+from watcher.xlsx.spec import col_letter
 
 ROOT = Path(__file__).resolve().parents[1]
 SAMPLES = ROOT / "sample_workbooks"
@@ -258,13 +259,6 @@ def _cell(addr: str) -> tuple[int, int]:
     return int(m.group(2)) - 1, _col(m.group(1))
 
 
-def _letters(c: int) -> str:
-    s = ""
-    c += 1
-    while c:
-        c, r = divmod(c - 1, 26)
-        s = chr(65 + r) + s
-    return s
 
 
 class Model:
@@ -329,14 +323,14 @@ def _formula(name: str, args: tuple) -> str:
 
 
 def _built_workbook(model: Model) -> dict:
-    cells = [[f"{_letters(c)}{r + 1}", _lo_value(v)] for (r, c), v in model.cells.items() if v is not None]
+    cells = [[f"{col_letter(c)}{r + 1}", _lo_value(v)] for (r, c), v in model.cells.items() if v is not None]
     arrays = []
     for anchor, name, args in BUILT:
         out = model.evaluate(anchor, name, args)
         rows = out if isinstance(out, list) else [[out]] * (N if isinstance(out, str) else 1)
         r0, c0 = _cell(anchor)
         extra = 1 if anchor == "C1" else 0                 # one row more than the data: #N/A
-        arrays.append([f"{anchor}:{_letters(c0 + len(rows[0]) - 1)}{r0 + len(rows) + extra}",
+        arrays.append([f"{anchor}:{col_letter(c0 + len(rows[0]) - 1)}{r0 + len(rows) + extra}",
                        _formula(name, args)])
     cells += [[f"AI{i}", float(i)] for i in range(1, 11) if i != 5]
     anchor, name, args = ERROR_INPUT
